@@ -1,0 +1,27 @@
+"""protomix core: the complete aqueous acid–base equilibrium of a mixture.
+
+Pure numpy/scipy; no user-interface imports.
+
+>>> from chem import load_preset, solve          # doctest: +SKIP
+>>> eq = solve(load_preset("presets/warm-room-rinse.toml"))
+>>> eq.pH, eq.ionic_strength, eq.species
+"""
+
+from __future__ import annotations
+
+from ._solver import solve, tableau
+from .errors import ChemError, LibraryError, ModelError, PresetError, UnitError
+from .library import Library, load_library
+from .model import (AcidBaseSystem, Equilibrium, Ingredient, Ion, Mixture, Notice, Reagent, Species,
+                    format_molar)
+from .presets import demo_mixture, dumps_preset, load_preset, loads_preset, save_preset, shipped_presets
+from .units import parse_concentration, parse_volume
+
+__version__ = "0.1.0"
+
+__all__ = [
+    "AcidBaseSystem", "ChemError", "Equilibrium", "Ingredient", "Ion", "Library", "LibraryError",
+    "Mixture", "ModelError", "Notice", "PresetError", "Reagent", "Species", "UnitError",
+    "demo_mixture", "dumps_preset", "format_molar", "shipped_presets", "load_library", "load_preset", "loads_preset",
+    "parse_concentration", "parse_volume", "save_preset", "solve", "tableau", "__version__",
+]

@@ -1,0 +1,633 @@
+"""The equilibrium solver.
+
+Formulation
+-----------
+The mixture is written as a tableau: components are H+ and the fully
+deprotonated form L of each acid–base system; every species is formed from
+components with a formation constant, HjL = L + j H+ with log β_j the sum of
+the last j stepwise pKa values (at the working temperature).  Strong ions
+(Na+, Cl-, ...) are fixed; water gives H+ and OH- with Kw(T).
+
+For the acid–base case every species holds exactly one non-proton component,
+so with the activity coefficients fixed the fractions of each system are
+explicit functions of x = log10 a(H+), and the charge balance
+
+    F(x) = [H+] - [OH-] + sum_s C_s sum_k alpha_sk z_sk + sum_strong z c = 0
+
+is strictly increasing in x.  It is solved by Newton's method on x kept
+inside a bracket that always contains the root (bisection whenever a Newton
+step leaves it), so it cannot fail to converge.  The ionic strength is found
+self-consistently around it.  No small-x or 5 % shortcut is used anywhere.
+
+Everything is vectorised over a leading batch axis, so sweeps and titrations
+solve hundreds of related mixtures in one call.
+"""
+
+from __future__ import annotations
+
+import functools
+import math
+from dataclasses import dataclass, replace
+
+import numpy as np
+
+from . import water
+from .activity import VALID_UP_TO, log_gamma
+from .cautions import cautions_for
+from .model import (T_REF_C, AcidBaseSystem, Equilibrium, Ion, Mixture, Notice, Species,
+                    charge_label)
+
+# Ion-size parameters (Å) of H+ and OH- for the extended Debye–Hückel model:
+# Kielland (1937), J. Am. Chem. Soc. 59, 1675, Table (from memory).
+SIZE_H = 9.0
+SIZE_OH = 3.5
+
+_LN10 = math.log(10.0)
+_sum = np.add.reduce
+_max = np.maximum.reduce
+_X_LO, _X_HI = -19.0, 4.0   # initial bracket on log10 a(H+)
+
+
+@dataclass(frozen=True)
+class Tableau:
+    """Components, species and formation constants of a mixture at its temperature.
+
+    Species rows are the system species (padded to a common width per system)
+    in the layout the solver uses.  ``stoichiometry`` lists, per species, the
+    count of each component (H+ first).
+    """
+
+    components: tuple[str, ...]
+    species: tuple[str, ...]
+    stoichiometry: np.ndarray
+    log_beta: np.ndarray
+    charges: np.ndarray
+
+
+class _Layout:
+    """Padded arrays (systems × species) for a list of acid–base systems."""
+
+    def __init__(self, systems: tuple[AcidBaseSystem, ...]):
+        self.systems = systems
+        s = len(systems)
+        m = max((sys_.steps for sys_ in systems), default=0) + 1
+        self.width = m
+        self.mask = np.zeros((s, m), dtype=bool)
+        self.z = np.zeros((s, m))
+        self.j = np.zeros((s, m))
+        self.size = np.full((s, m), 4.0)
+        self.pka0 = np.zeros((s, max(m - 1, 1)))
+        self.dh = np.zeros_like(self.pka0)
+        self.dcp = np.zeros_like(self.pka0)
+        for i, sys_ in enumerate(systems):
+            n = sys_.steps
+            k = np.arange(n + 1)
+            self.mask[i, : n + 1] = True
+            self.z[i, : n + 1] = sys_.charge_fully_protonated - k
+            self.j[i, : n + 1] = n - k
+            self.size[i, :] = sys_.ion_size_a
+            self.pka0[i, :n] = sys_.pka
+            if sys_.dh_kj is not None:
+                self.dh[i, :n] = np.asarray(sys_.dh_kj) * 1000.0
+                if sys_.dcp_j is not None:
+                    self.dcp[i, :n] = sys_.dcp_j
+
+    def log_beta(self, t_c) -> np.ndarray:
+        """log10 β of each padded species at temperatures ``t_c`` (shape (P,)).
+
+        Returns (P, S, M), -inf where padded.
+        """
+        t = np.atleast_1d(np.asarray(t_c, dtype=float))
+        T = (t + water.KELVIN)[:, None, None]
+        T0 = T_REF_C + water.KELVIN
+        pka = (self.pka0 + self.dh / (water.R_J * _LN10) * (1.0 / T - 1.0 / T0)
+               - self.dcp / (water.R_J * _LN10) * (T0 / T - 1.0 + np.log(T / T0)))
+        s, m = self.mask.shape
+        lb = np.zeros((t.size, s, m))
+        if m > 1:
+            # log β for species k (k protons removed) = sum of pKa[k:]
+            rev = np.cumsum(pka[..., ::-1], axis=-1)[..., ::-1]
+            lb[..., : m - 1] = rev[..., : m - 1]
+        lb[:, ~self.mask] = -np.inf
+        return lb
+
+
+def tableau(mixture: Mixture) -> Tableau:
+    """The components-and-species formulation of ``mixture`` at its temperature."""
+    systems = tuple(s for s, _ in mixture.systems())
+    comps = ("H+",) + tuple(f"{s.species[-1]}" for s in systems)
+    names, rows, betas, charges = [], [], [], []
+    for i, sys_ in enumerate(systems):
+        pka = sys_.pka_at(mixture.temperature_c)
+        for k, name in enumerate(sys_.species):
+            row = [0] * len(comps)
+            row[0] = sys_.steps - k
+            row[i + 1] = 1
+            names.append(name)
+            rows.append(row)
+            betas.append(float(_sum(pka[k:])))
+            charges.append(sys_.charge_of(k))
+    return Tableau(comps, tuple(names), np.array(rows, dtype=int).reshape(len(names), len(comps)),
+                   np.array(betas), np.array(charges))
+
+
+# --------------------------------------------------------------------------
+# batch kernel
+# --------------------------------------------------------------------------
+
+@dataclass
+class _Batch:
+    """Result arrays of the kernel for P points."""
+
+    x: np.ndarray          # log10 a(H+), (P,)
+    ionic: np.ndarray      # (P,)
+    alpha: np.ndarray      # (P, S, M)
+    lg: np.ndarray         # log10 γ of system species (P, S, M)
+    lg_h: np.ndarray
+    lg_oh: np.ndarray
+    residual: np.ndarray   # charge balance, mol/L (P,)
+    scale: np.ndarray      # sum of |charge terms| (P,)
+    converged: np.ndarray  # (P,) bool
+    iterations: int
+
+
+def solve_batch(lay: _Layout, log_beta: np.ndarray, totals: np.ndarray, q_strong: np.ndarray,
+                i_strong: np.ndarray, t_c: np.ndarray, model: str, *, tol: float = 1e-13,
+                max_iter: int = 200, x0: np.ndarray | None = None) -> _Batch:
+    """Solve P independent acid–base mixtures sharing one layout.
+
+    Parameters
+    ----------
+    log_beta : (P, S, M) formation constants at I = 0 and each point's temperature.
+    totals : (P, S) total concentration of each system, mol/L.
+    q_strong : (P,) net charge of the strong ions, mol/L.
+    i_strong : (P,) ionic-strength contribution of the strong ions, mol/L.
+    t_c : (P,) temperature, °C.
+    model : activity model name.
+    """
+    t_c = np.atleast_1d(np.asarray(t_c, dtype=float))
+    p = log_beta.shape[0]
+    t_c = np.broadcast_to(t_c, (p,))
+    kw = 10.0 ** -water.pkw(t_c)
+    a = water.debye_huckel_a(t_c)
+    b = water.debye_huckel_b(t_c)
+    z, jj, size = lay.z, lay.j, lay.size
+    z2 = z * z
+    jj2 = jj * jj
+    a3, b3 = a[:, None, None], b[:, None, None]
+    ideal = model == "ideal"
+
+    def gammas(ionic):
+        if ideal:
+            zero = np.zeros(p)
+            return np.zeros(log_beta.shape), zero, zero
+        i3 = ionic[:, None, None]
+        lg = log_gamma(model, z2, size, i3, a3, b3)
+        lg_h = log_gamma(model, 1.0, SIZE_H, ionic, a, b)
+        lg_oh = log_gamma(model, 1.0, SIZE_OH, ionic, a, b)
+        return lg, lg_h, lg_oh
+
+    def evaluate(x, base, g_h, g_oh):
+        w = base + jj * x[:, None, None]
+        w = w - _max(w, axis=2, keepdims=True)
+        e = np.power(10.0, w)
+        alpha = e / _sum(e, axis=2, keepdims=True)
+        zbar = _sum(alpha * z, axis=2)
+        jbar = _sum(alpha * jj, axis=2)
+        var = np.maximum(_sum(alpha * jj2, axis=2) - jbar * jbar, 0.0)
+        h = np.power(10.0, x)
+        hc = h / g_h
+        ohc = kw / (h * g_oh)
+        f = hc - ohc + _sum(totals * zbar, axis=1) + q_strong
+        df = _LN10 * (hc + ohc + _sum(totals * var, axis=1))
+        return f, df, alpha, hc, ohc
+
+    if x0 is None:
+        x = np.full(p, -7.0)
+    else:
+        x = np.clip(np.asarray(x0, dtype=float).copy(), _X_LO + 1, _X_HI - 1)
+    ionic = i_strong.astype(float).copy()
+    iterations = 0
+
+    # Phase 1: joint Newton on x with the ionic strength updated every step.
+    if not ideal:
+        for _ in range(min(40, max_iter)):
+            iterations += 1
+            lg, lg_h, lg_oh = gammas(ionic)
+            f, df, alpha, hc, ohc = evaluate(x, log_beta - lg, 10.0 ** lg_h, 10.0 ** lg_oh)
+            step = np.clip(f / df, -2.0, 2.0)
+            x = np.clip(x - step, _X_LO, _X_HI)
+            new_i = i_strong + 0.5 * (_sum(totals * _sum(alpha * z2, axis=2), axis=1) + hc + ohc)
+            d_i = np.abs(new_i - ionic)
+            ionic = new_i
+            if np.all(np.abs(step) < 1e-9) and np.all(d_i <= 1e-10 * ionic + 1e-15):
+                break
+
+    # Phase 2: for fixed activity coefficients, a bracketed safeguarded Newton
+    # solve (cannot fail); around it, the ionic-strength fixed point.
+    converged = np.zeros(p, dtype=bool)
+    for outer in range(60):
+        lg, lg_h, lg_oh = gammas(ionic)
+        base = log_beta - lg
+        g_h, g_oh = 10.0 ** lg_h, 10.0 ** lg_oh
+        lo = np.full(p, _X_LO)
+        hi = np.full(p, _X_HI)
+        for _ in range(8):   # widen the bracket if needed (extreme activity coefficients)
+            f_lo = evaluate(lo, base, g_h, g_oh)[0]
+            f_hi = evaluate(hi, base, g_h, g_oh)[0]
+            bad_lo, bad_hi = f_lo > 0, f_hi < 0
+            if not (bad_lo.any() or bad_hi.any()):
+                break
+            lo = np.where(bad_lo, lo - 10.0, lo)
+            hi = np.where(bad_hi, hi + 10.0, hi)
+        x = np.clip(x, lo, hi)
+        inner_ok = np.zeros(p, dtype=bool)
+        for _ in range(max_iter):
+            iterations += 1
+            f, df, alpha, hc, ohc = evaluate(x, base, g_h, g_oh)
+            lo = np.where(f < 0, x, lo)
+            hi = np.where(f > 0, x, hi)
+            newton = x - f / df
+            out = ~np.isfinite(newton) | (newton <= lo) | (newton >= hi)
+            x_new = np.where(out, 0.5 * (lo + hi), newton)
+            dx = np.abs(x_new - x)
+            inner_ok = (dx <= tol * (1.0 + np.abs(x))) | (f == 0) | (hi - lo <= 4e-16 * (1.0 + np.abs(x)))
+            x = np.where(f == 0, x, x_new)
+            if inner_ok.all() or iterations >= max_iter:
+                break
+        f, df, alpha, hc, ohc = evaluate(x, base, g_h, g_oh)
+        if ideal:
+            converged = inner_ok
+            break
+        new_i = i_strong + 0.5 * (_sum(totals * _sum(alpha * z2, axis=2), axis=1) + hc + ohc)
+        i_ok = np.abs(new_i - ionic) <= 1e-10 * new_i + 1e-15
+        converged = inner_ok & i_ok
+        if converged.all() or iterations >= max_iter:
+            break
+        ionic = np.where(i_ok, ionic, new_i if outer < 30 else 0.5 * (ionic + new_i))
+
+    scale = hc + ohc + _sum(totals * _sum(alpha * np.abs(z), axis=2), axis=1) + np.abs(q_strong) + i_strong
+    return _Batch(x=x, ionic=ionic, alpha=alpha, lg=lg, lg_h=lg_h, lg_oh=lg_oh, residual=f,
+                  scale=scale, converged=converged, iterations=iterations)
+
+
+# --------------------------------------------------------------------------
+# scalar kernel (one mixture): the same equations in plain Python floats,
+# which for tens of species beats numpy's per-call overhead several times.
+# --------------------------------------------------------------------------
+
+def _solve_scalar(systems: list, q_strong: float, i_strong: float, kw: float, a: float, b: float,
+                  model: str, *, tol: float, max_iter: int, x0: float = -7.0):
+    """Solve one mixture.
+
+    ``systems`` is a list of ``(total, c, log_beta, j, sizes)`` per acid–base
+    system, where ``c`` is the charge of the fully deprotonated form and
+    ``log_beta``/``j``/``sizes`` list each species' formation constant,
+    bound protons and ion size.  Returns
+    ``(x, ionic, per_system_lg, lg_h, lg_oh, residual, scale, converged, iterations)``
+    with ``per_system_lg`` the log10 γ of each species.
+    """
+    ideal = model == "ideal"
+    davies = model == "davies"
+    exp = math.exp
+    ln10 = _LN10
+
+    def lgam(z2: float, size: float, ionic: float) -> float:
+        if ideal or z2 == 0.0:
+            return 0.0
+        si = math.sqrt(ionic)
+        if davies:
+            return -a * z2 * (si / (1.0 + si) - 0.3 * ionic)
+        return -a * z2 * si / (1.0 + b * size * si)
+
+    def bases(ionic: float):
+        out = []
+        for total, c, lbeta, jj, sizes in systems:
+            lgs = [lgam((c + j) * (c + j), sz, ionic) for j, sz in zip(jj, sizes)]
+            out.append((total, c, [(lb - lg) * ln10 for lb, lg in zip(lbeta, lgs)], jj, lgs, sizes[0]))
+        return out
+
+    def evaluate(x: float, prepared, g_h: float, g_oh: float):
+        f = q_strong
+        df = 0.0
+        iz2 = 0.0
+        xl = x * ln10
+        for total, c, base, jj, _, _ in prepared:
+            ws = [bb + j * xl for bb, j in zip(base, jj)]
+            m = max(ws)
+            s0 = s1 = s2 = 0.0
+            for w, j in zip(ws, jj):
+                e = exp(w - m)
+                s0 += e
+                s1 += e * j
+                s2 += e * j * j
+            jbar = s1 / s0
+            j2bar = s2 / s0
+            f += total * (c + jbar)
+            var = j2bar - jbar * jbar
+            if var > 0.0:
+                df += total * var
+            iz2 += total * (c * c + 2.0 * c * jbar + j2bar)
+        h = exp(xl)
+        hc = h / g_h
+        ohc = kw / (h * g_oh)
+        f += hc - ohc
+        df = ln10 * (df + hc + ohc)
+        return f, df, i_strong + 0.5 * (iz2 + hc + ohc), hc, ohc
+
+    def dterm(size: float, ionic: float) -> float:
+        """d/dI of the ionic-strength factor D in log10 γ = -A z² D(I)."""
+        si = math.sqrt(max(ionic, 1e-16))
+        if davies:
+            return 1.0 / (2.0 * si * (1.0 + si) ** 2) - 0.3
+        return 1.0 / (2.0 * si * (1.0 + b * size * si) ** 2)
+
+    def joint(x: float, ionic: float, prepared, g_h: float, g_oh: float):
+        """Charge balance F, ionic-strength residual G and their partial derivatives."""
+        f = q_strong
+        fx = fi = gx = gi = 0.0
+        ez2 = 0.0
+        xl = x * ln10
+        al = ln10 * a
+        for total, c, base, jj, _, size in prepared:
+            ws = [bb + j * xl for bb, j in zip(base, jj)]
+            m = max(ws)
+            s0 = s1 = s2 = s3 = s4 = sj2 = 0.0
+            for w, j in zip(ws, jj):
+                e = exp(w - m)
+                z = c + j
+                z2 = z * z
+                s0 += e
+                s1 += e * j
+                sj2 += e * j * j
+                s2 += e * z2
+                s3 += e * j * z2
+                s4 += e * z2 * z2
+            jbar = s1 / s0
+            j2bar = sj2 / s0
+            z2bar = s2 / s0
+            var_j = max(j2bar - jbar * jbar, 0.0)
+            cov_jz2 = s3 / s0 - jbar * z2bar
+            var_z2 = max(s4 / s0 - z2bar * z2bar, 0.0)
+            dd = al * dterm(size, ionic)
+            f += total * (c + jbar)
+            fx += total * var_j
+            fi += total * dd * cov_jz2
+            ez2 += total * z2bar
+            gx += total * cov_jz2
+            gi += total * dd * var_z2
+        h = exp(xl)
+        hc = h / g_h
+        ohc = kw / (h * g_oh)
+        dh_ = al * dterm(SIZE_H, ionic)
+        doh = al * dterm(SIZE_OH, ionic)
+        f += hc - ohc
+        fx = ln10 * (fx + hc + ohc)
+        fi += dh_ * hc - doh * ohc
+        g = i_strong + 0.5 * (ez2 + hc + ohc) - ionic
+        gx = 0.5 * ln10 * (gx + hc - ohc)
+        gi = 0.5 * (gi + dh_ * hc + doh * ohc) - 1.0
+        return f, g, fx, fi, gx, gi
+
+    def water_gammas(ionic: float):
+        return 10.0 ** lgam(1.0, SIZE_H, ionic), 10.0 ** lgam(1.0, SIZE_OH, ionic)
+
+    x = min(max(x0, _X_LO), _X_HI)
+    ionic = i_strong
+    # No ionic strength can exceed this (every ion at its largest charge, plus
+    # water's ions); capping keeps wild early iterates finite.
+    i_cap = 2.0 * (i_strong + sum(p[0] * max((p[1] + j) ** 2 for j in p[3]) for p in systems)) + 1.0
+    iterations = 0
+    # Phase 1: two-dimensional Newton on (x, I) with analytic derivatives:
+    # F(x, I) is the charge balance, G(x, I) = I_computed - I.
+    if not ideal:
+        for _ in range(min(40, max_iter)):
+            iterations += 1
+            prepared = bases(ionic)
+            g_h, g_oh = water_gammas(ionic)
+            f, g, fx, fi, gx, gi = joint(x, ionic, prepared, g_h, g_oh)
+            det = fx * gi - fi * gx
+            if det == 0.0 or not math.isfinite(det):
+                break
+            dx = (f * gi - g * fi) / det
+            d_i = (fx * g - gx * f) / det
+            dx = min(max(dx, -2.0), 2.0)
+            x = min(max(x - dx, _X_LO), _X_HI)
+            new_i = ionic - d_i
+            if not new_i > 0.1 * ionic:
+                new_i = 0.1 * ionic if ionic > 0 else i_strong
+            ionic = min(new_i, i_cap)
+            if abs(dx) < 1e-10 and abs(d_i) <= 1e-11 * ionic + 1e-16:
+                break
+    # Phase 2: at fixed activity coefficients the balance is monotone in x;
+    # safeguarded Newton inside a bracket (bisection whenever Newton leaves
+    # it) cannot fail.  Around it, the ionic-strength fixed point.
+    converged = False
+    for outer in range(60):
+        prepared = bases(ionic)
+        g_h, g_oh = water_gammas(ionic)
+        lo, hi = -math.inf, math.inf
+        inner_ok = False
+        while iterations < max_iter:
+            iterations += 1
+            f, df, new_i, hc, ohc = evaluate(x, prepared, g_h, g_oh)
+            if f == 0.0:
+                inner_ok = True
+                break
+            if f < 0.0:
+                lo = x
+            else:
+                hi = x
+            newton = x - f / df if df > 0 else math.nan
+            if abs(newton - x) <= tol * (1.0 + abs(x)):
+                x = newton
+                inner_ok = True
+                break
+            if not (lo < newton < hi) or abs(newton - x) > 3.0:
+                if math.isinf(lo):
+                    lo = _bracket_end(evaluate, prepared, g_h, g_oh, x, -1)
+                if math.isinf(hi):
+                    hi = _bracket_end(evaluate, prepared, g_h, g_oh, x, +1)
+                newton = 0.5 * (lo + hi) if not (lo < newton < hi) else newton
+            dx = abs(newton - x)
+            x = newton
+            if dx <= tol * (1.0 + abs(x)) or (hi - lo) <= 4e-16 * (1.0 + abs(x)):
+                inner_ok = True
+                break
+        f, df, new_i, hc, ohc = evaluate(x, prepared, g_h, g_oh)
+        if ideal:
+            converged = inner_ok
+            break
+        i_ok = abs(new_i - ionic) <= 1e-10 * new_i + 1e-15
+        converged = inner_ok and i_ok
+        if converged or iterations >= max_iter:
+            break
+        new_i = min(new_i, i_cap)
+        ionic = new_i if outer < 30 else 0.5 * (ionic + new_i)
+    lgs = [p[4] for p in prepared]
+    scale = hc + ohc + abs(q_strong) + i_strong + sum(
+        p[0] * max(abs(p[1] + j) for j in p[3]) for p in prepared)
+    return (x, ionic, lgs, lgam(1.0, SIZE_H, ionic), lgam(1.0, SIZE_OH, ionic), f, scale,
+            converged, iterations)
+
+
+def _bracket_end(evaluate, prepared, g_h, g_oh, x, direction):
+    """A point beyond which the balance has the sign that brackets the root."""
+    end = _X_LO if direction < 0 else _X_HI
+    for _ in range(8):
+        f = evaluate(end, prepared, g_h, g_oh)[0]
+        if (f < 0) if direction < 0 else (f > 0):
+            return end
+        end += 10.0 * direction
+    return end
+
+
+# --------------------------------------------------------------------------
+# single-mixture front end
+# --------------------------------------------------------------------------
+
+def _strong_sums(strong: tuple[tuple[Ion, float], ...]) -> tuple[float, float]:
+    q = sum(ion.charge * c for ion, c in strong)
+    i = 0.5 * sum(ion.charge * ion.charge * c for ion, c in strong)
+    return q, i
+
+
+def prepare(mixture: Mixture):
+    """Layout and totals of a mixture (shared by solve, sweeps and curves)."""
+    pairs = mixture.systems()
+    systems = tuple(s for s, _ in pairs)
+    lay = _Layout(systems)
+    totals = np.array([c for _, c in pairs], dtype=float)
+    strong = mixture.strong_ions()
+    return lay, totals, strong
+
+
+@functools.lru_cache(maxsize=8192)
+def _scalar_system(sys_: AcidBaseSystem, t_c: float) -> tuple:
+    """(c, log_beta, j, sizes) of a system at ``t_c``, in plain floats (cached)."""
+    pka = [float(v) for v in sys_.pka_at(t_c)]
+    n = sys_.steps
+    lbeta = [math.fsum(pka[k:]) for k in range(n + 1)]
+    return (float(sys_.charge_fully_protonated - n), lbeta, [float(n - k) for k in range(n + 1)],
+            [sys_.ion_size_a] * (n + 1))
+
+
+@functools.lru_cache(maxsize=1024)
+def _water_constants(t_c: float) -> tuple[float, float, float]:
+    return (float(water.pkw(t_c)), float(water.debye_huckel_a(t_c)), float(water.debye_huckel_b(t_c)))
+
+
+def solve(mixture: Mixture, *, tol: float = 1e-13, max_iter: int = 200) -> Equilibrium:
+    """Solve the complete acid–base equilibrium of ``mixture``.
+
+    Parameters
+    ----------
+    mixture : Mixture
+        Ingredients, temperature (°C) and activity model.
+    tol : float, optional
+        Convergence tolerance on log10 a(H+).
+    max_iter : int, optional
+        Cap on solver iterations; when reached, the result says
+        ``converged=False`` instead of raising.
+
+    Returns
+    -------
+    Equilibrium
+        pH (= -log10 a(H+)), every species with concentration (mol/L),
+        activity coefficient and fraction of its system, ionic strength,
+        the remaining charge-balance error, warnings and cautions.
+    """
+    t = mixture.temperature_c
+    pairs = mixture.systems()
+    strong = mixture.strong_ions()
+    q, i_s = _strong_sums(strong)
+    pkw, a, b = _water_constants(t)
+    sys_data = []
+    for sys_, total in pairs:
+        c, lbeta, jj, sizes = _scalar_system(sys_, t)
+        sys_data.append((total, c, lbeta, jj, sizes))
+    (x, ionic, lgs, lg_h, lg_oh, resid, scale, converged, iterations) = _solve_scalar(
+        sys_data, q, i_s, 10.0 ** -pkw, a, b, mixture.activity, tol=tol, max_iter=max_iter)
+    alphas = []
+    for (total, c, lbeta, jj, _), lg in zip(sys_data, lgs):
+        ws = [(lb - g) + j * x for lb, g, j in zip(lbeta, lg, jj)]
+        m = max(ws)
+        es = [10.0 ** (w - m) for w in ws]
+        s0 = math.fsum(es)
+        alphas.append([e / s0 for e in es])
+    return _assemble(mixture, pairs, strong, x, ionic, alphas, lgs, lg_h, lg_oh, resid, scale,
+                     converged, iterations, pkw, a, b)
+
+
+def _assemble(mixture: Mixture, pairs, strong, x: float, ionic: float, alphas, lgs, lg_h: float,
+              lg_oh: float, resid: float, scale: float, converged: bool, iterations: int,
+              pkw: float, a: float, b: float) -> Equilibrium:
+    model = mixture.activity
+    ph = -x
+    g_h = 10.0 ** lg_h
+    g_oh = 10.0 ** lg_oh
+    a_h = 10.0 ** x
+    species: list[Species] = [
+        Species("H+", "water", 1, 1, a_h / g_h, g_h, None),
+        Species("OH-", "water", 0, -1, 10.0 ** (-pkw) / a_h / g_oh, g_oh, None),
+    ]
+    for (sys_, total), alpha, lg in zip(pairs, alphas, lgs):
+        for k, name in enumerate(sys_.species):
+            frac = float(alpha[k])
+            species.append(Species(name, sys_.name, sys_.steps - k, sys_.charge_of(k),
+                                   float(total) * frac, 10.0 ** float(lg[k]), frac))
+    for ion, c in strong:
+        lg = float(log_gamma(model, ion.charge ** 2, ion.ion_size_a, ionic, a, b))
+        species.append(Species(ion.name, "strong", 0, ion.charge, c, 10.0 ** lg, None))
+    rel = abs(resid) / scale if scale > 0 else 0.0
+    message = ("converged" if converged else
+               f"not converged after {iterations} iterations (relative balance error {rel:.1e})")
+    warnings = _warnings(mixture, [s for s, _ in pairs], ionic, converged, message)
+    eq = Equilibrium(mixture=mixture, pH=ph, pOH=pkw - ph, pKw=pkw, ionic_strength=ionic,
+                     converged=converged, balance_error=resid, iterations=iterations,
+                     message=message, species=tuple(species),
+                     systems=tuple((s.name, float(c)) for s, c in pairs),
+                     warnings=tuple(warnings))
+    return replace(eq, cautions=tuple(cautions_for(eq)))
+
+
+def equilibrium_at(mixture: Mixture, batch: "_Batch", idx: int) -> Equilibrium:
+    """The :class:`Equilibrium` of point ``idx`` of a batch solve of ``mixture``'s layout."""
+    t = mixture.temperature_c
+    pkw, a, b = _water_constants(t)
+    pairs = mixture.systems()
+    alphas = [batch.alpha[idx, s, : sys_.steps + 1] for s, (sys_, _) in enumerate(pairs)]
+    lgs = [batch.lg[idx, s, : sys_.steps + 1] for s, (sys_, _) in enumerate(pairs)]
+    return _assemble(mixture, pairs, mixture.strong_ions(), float(batch.x[idx]), float(batch.ionic[idx]),
+                     alphas, lgs, float(batch.lg_h[idx]), float(batch.lg_oh[idx]),
+                     float(batch.residual[idx]), float(batch.scale[idx]), bool(batch.converged[idx]),
+                     batch.iterations, pkw, a, b)
+
+
+def _warnings(mixture: Mixture, systems, ionic: float, converged: bool, message: str):
+    out: list[Notice] = []
+    if not converged:
+        out.append(Notice("not-converged", f"The solver did not converge: {message}. "
+                                           "Do not use these numbers."))
+    limit = VALID_UP_TO[mixture.activity]
+    if ionic > limit:
+        out.append(Notice("ionic-strength-high",
+                          f"Ionic strength {ionic:.3g} M is beyond the {mixture.activity} model's "
+                          f"usual range (up to about {limit:g} M); activity coefficients are rough."))
+    t = mixture.temperature_c
+    for sys_ in systems:
+        if not sys_.has_temperature_data():
+            if abs(t - T_REF_C) > 0.5:
+                out.append(Notice("no-temperature-data",
+                                  f"{sys_.name}: no reaction enthalpy known; its 25 °C pKa is used at {t:g} °C."))
+        elif sys_.t_range_c is not None and not (sys_.t_range_c[0] - 1e-9 <= t <= sys_.t_range_c[1] + 1e-9):
+            lo, hi = sys_.t_range_c
+            out.append(Notice("temperature-out-of-range",
+                              f"{sys_.name}: {t:g} °C is outside its temperature data ({lo:g}–{hi:g} °C); "
+                              "pKa extrapolated by van 't Hoff."))
+    return out
+
+
+def species_label(system: AcidBaseSystem, k: int) -> str:
+    """Generic label for a species of a custom system with no names given."""
+    return f"{system.name} ({charge_label(system.charge_of(k)) or '0'})"

@@ -1,0 +1,71 @@
+"""``protomix solve FILE [--json]``: print the equilibrium of a preset."""
+
+from __future__ import annotations
+
+import json
+import math
+import sys
+
+HELP = "print the equilibrium of a preset as a table (or --json)"
+
+
+def add_arguments(parser) -> None:
+    parser.add_argument("file", metavar="FILE.toml", help="preset file to solve")
+    parser.add_argument("--json", action="store_true", help="print the result as one JSON object")
+
+
+def _fmt(x: float | None, spec: str) -> str:
+    if x is None:
+        return "—"
+    if not math.isfinite(x):
+        return "-inf" if x < 0 else "inf"
+    return format(x, spec)
+
+
+def render_table(eq) -> str:
+    """The human-readable report of an :class:`chem.Equilibrium`."""
+    from chem import format_molar
+
+    mix = eq.mixture
+    out = []
+    if mix.title:
+        out.append(mix.title)
+    status = "converged" if eq.converged else "NOT CONVERGED - do not use these numbers"
+    out.append(f"pH {eq.pH:.3f}   pOH {eq.pOH:.3f}   {mix.temperature_c:g} °C   activity: {mix.activity}")
+    out.append(f"ionic strength {eq.ionic_strength:.4g} M   balance error {abs(eq.balance_error):.1e} M   {status}")
+    out.append("")
+    out.append("ingredients")
+    for ing in mix.ingredients:
+        out.append(f"  {ing.reagent.name:<40} {ing.label}")
+    if not mix.ingredients:
+        out.append("  (none: pure water)")
+    out.append("")
+    head = f"  {'species':<22} {'system':<18} {'conc / M':>11} {'log C':>7} {'gamma':>6} {'fraction':>8}"
+    out.append(head)
+    out.append("  " + "-" * (len(head) - 2))
+    for s in eq.species:
+        frac = "" if s.fraction is None else f"{s.fraction:8.4f}"
+        out.append(f"  {s.name:<22} {s.system:<18} {s.conc:11.4e} {_fmt(s.log_c, '7.3f')} "
+                   f"{s.activity_coefficient:6.3f} {frac:>8}")
+    if eq.systems:
+        out.append("")
+        out.append("totals: " + ", ".join(f"{n} {format_molar(c)}" for n, c in eq.systems))
+    for w in eq.warnings:
+        out.append(f"warning [{w.code}]: {w.message}")
+    for c in eq.cautions:
+        out.append(f"CAUTION [{c.code}]: {c.message}")
+    out.append("")
+    out.append("Model estimate: check against measurement; defer to safety data sheets, local codes and licensed practice.")
+    return "\n".join(out)
+
+
+def run(args) -> int:
+    from chem import load_preset, solve
+
+    eq = solve(load_preset(args.file))
+    if args.json:
+        json.dump(eq.to_dict(), sys.stdout, indent=2, ensure_ascii=False)
+        sys.stdout.write("\n")
+    else:
+        print(render_table(eq))
+    return 0
