@@ -48,24 +48,36 @@ class Library:
     reagents: tuple[Reagent, ...]
 
     def __post_init__(self) -> None:
-        index: dict[str, object] = {}
-        for kind, items in (("system", self.systems), ("reagent", self.reagents)):
+        # Systems and reagents have separate name spaces, so a reagent may share
+        # its system's name ("glycine" the reagent vs "glycine" the backbone).
+        sys_index: dict[str, AcidBaseSystem] = {}
+        reagent_index: dict[str, Reagent] = {}
+        for index, items in ((sys_index, self.systems), (reagent_index, self.reagents)):
             for item in items:
                 keys = {normalise(item.name), *(normalise(a) for a in item.aliases)}
-                if kind == "reagent" and item.formula:
+                if isinstance(item, Reagent) and item.formula:
                     keys.add(normalise(item.formula))
                 for k in keys:
                     other = index.get(k)
                     if other is not None and other is not item:
-                        raise LibraryError(f"name {k!r} is used by both {getattr(other, 'name', other)!r} "
-                                           f"and {item.name!r}")
-                    index[k] = item
-        object.__setattr__(self, "_index", index)
+                        raise LibraryError(f"name {k!r} is used by both {other.name!r} and {item.name!r}")
+                    index[k] = item  # type: ignore[assignment]
+        object.__setattr__(self, "_systems", sys_index)
+        object.__setattr__(self, "_reagents", reagent_index)
         object.__setattr__(self, "_ions", {i.name: i for i in self.ions})
 
     # -- look-ups ------------------------------------------------------------
     def find(self, name: str) -> AcidBaseSystem | Reagent | None:
-        return self._index.get(normalise(name))  # type: ignore[attr-defined]
+        """A reagent by name, alias or formula, else a system by name or alias, else None."""
+        key = normalise(name)
+        return self._reagents.get(key) or self._systems.get(key)  # type: ignore[attr-defined]
+
+    def parent_reagent(self, system: AcidBaseSystem) -> Reagent | None:
+        """The compound a system is named after, when the library has it (Tris -> "tris base")."""
+        for r in self.reagents_of(system):
+            if not r.counter_ions and r.units == 1 and normalise(r.name).startswith(normalise(system.name)):
+                return r
+        return None
 
     def reagent(self, name: str) -> Reagent:
         """The reagent called ``name`` (name, alias or formula; case-insensitive)."""
@@ -73,13 +85,17 @@ class Library:
         if isinstance(item, Reagent):
             return item
         if isinstance(item, AcidBaseSystem):
+            parent = self.parent_reagent(item)
+            if parent is not None:
+                return parent
             forms = [r.name for r in self.reagents if r.system is item][:3]
             hint = f"; add a reagent such as {', '.join(repr(f) for f in forms)}" if forms else ""
             raise LibraryError(f"'{name}' is an acid–base system, not a reagent{hint}")
         raise LibraryError(f"unknown reagent '{name}'{self._suggest(name)}")
 
     def system(self, name: str) -> AcidBaseSystem:
-        item = self.find(name)
+        key = normalise(name)
+        item = self._systems.get(key) or self._reagents.get(key)  # type: ignore[attr-defined]
         if isinstance(item, AcidBaseSystem):
             return item
         if isinstance(item, Reagent) and item.system is not None:

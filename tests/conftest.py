@@ -1,0 +1,23 @@
+"""Shared fixtures: keep every test away from the user's own files."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import pytest
+
+ROOT = Path(__file__).resolve().parent.parent
+PRESETS = ROOT / "presets"
+
+
+@pytest.fixture(autouse=True)
+def _private_data_dir(tmp_path_factory, monkeypatch):
+    """Point the user data folder (presets, autosave) at a fresh temporary folder."""
+    monkeypatch.setenv("PROTOMIX_DATA_DIR", str(tmp_path_factory.mktemp("protomix-data")))
+
+
+@pytest.fixture(scope="session")
+def lib():
+    from chem import load_library
+
+    return load_library()
