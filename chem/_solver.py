@@ -317,6 +317,7 @@ def _solve_scalar(systems: list, q_strong: float, i_strong: float, kw: float, a:
         f, df, new_i, hc, ohc = evaluate(x, prepared, g_h, g_oh)
         if ideal:
             converged = inner_ok
+            ionic = new_i      # reported for information; γ = 1 regardless
             break
         i_ok = abs(new_i - ionic) <= 1e-10 * new_i + 1e-15
         converged = inner_ok and i_ok

@@ -98,6 +98,13 @@ def main(argv: list[str]) -> int:
             return int(mod.run(args) or 0)
         parser = _top_parser(_available() if any(a in ("-h", "--help") for a in argv) else {})
         args = parser.parse_args(argv)
+        if args.file is not None:
+            from pathlib import Path
+
+            if not Path(args.file).is_file():
+                print(f"protomix: error: '{args.file}' is neither a preset file nor a command "
+                      f"({', '.join(SUBCOMMANDS)}); see --help", file=sys.stderr)
+                return EXIT_BAD_INPUT
         _ensure_utf8_stderr()
         from tui.app import run_explorer
         return int(run_explorer(args.file) or 0)

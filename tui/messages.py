@@ -1,0 +1,32 @@
+"""Messages the explorer's background work posts back to the app.
+
+Each carries the ``generation`` of the request it answers; the app applies a
+message only when that is still the newest request, so late answers to old
+questions are dropped.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+from rich.text import Text
+from textual.message import Message
+
+import chem
+
+
+@dataclass
+class Solved(Message):
+    """The mixture of request ``generation`` was solved (``result.converged`` may be False)."""
+
+    generation: int
+    result: chem.Equilibrium
+
+
+@dataclass
+class Plotted(Message):
+    """The plot of request ``generation`` was built, ready to show as it is."""
+
+    generation: int
+    image: Text
+    title: str
