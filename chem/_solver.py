@@ -140,40 +140,59 @@ def _solve_scalar(systems: list, q_strong: float, i_strong: float, kw: float, a:
                   model: str, *, tol: float, max_iter: int, x0: float = -7.0):
     """Solve one mixture.
 
-    ``systems`` is a list of ``(total, c, log_beta, j, sizes)`` per acid–base
-    system, where ``c`` is the charge of the fully deprotonated form and
-    ``log_beta``/``j``/``sizes`` list each species' formation constant,
-    bound protons and ion size.  Returns
-    ``(x, ionic, per_system_lg, lg_h, lg_oh, residual, scale, converged, iterations)``
-    with ``per_system_lg`` the log10 γ of each species.
+    ``systems`` lists ``(total, c, ln_beta, j, z2, size)`` per acid–base system:
+    total (mol/L), the charge ``c`` of the fully deprotonated form, and per
+    species the natural-log formation constant, bound protons and squared
+    charge, plus the system's ion size (Å).  Returns
+    ``(x, ionic, alphas, lgs, lg_h, lg_oh, residual, scale, converged, iterations)``
+    with x = log10 a(H+), ``alphas`` the fractions and ``lgs`` the log10 γ of
+    each system's species.
     """
     ideal = model == "ideal"
     davies = model == "davies"
     exp = math.exp
+    sqrt = math.sqrt
     ln10 = _LN10
+    al = ln10 * a
 
-    def lgam(z2: float, size: float, ionic: float) -> float:
-        if ideal or z2 == 0.0:
+    def dfactor(size: float, ionic: float) -> float:
+        """D(I) in log10 γ = -A z² D(I)."""
+        if ideal:
             return 0.0
-        si = math.sqrt(ionic)
+        si = sqrt(ionic)
         if davies:
-            return -a * z2 * (si / (1.0 + si) - 0.3 * ionic)
-        return -a * z2 * si / (1.0 + b * size * si)
+            return si / (1.0 + si) - 0.3 * ionic
+        return si / (1.0 + b * size * si)
+
+    def dterm(size: float, ionic: float) -> float:
+        """dD/dI."""
+        si = sqrt(max(ionic, 1e-16))
+        if davies:
+            return 1.0 / (2.0 * si * (1.0 + si) ** 2) - 0.3
+        return 1.0 / (2.0 * si * (1.0 + b * size * si) ** 2)
 
     def bases(ionic: float):
+        """Per system: (total, c, ln β - ln γ per species, j, z², size, A·ln10·D)."""
         out = []
-        for total, c, lbeta, jj, sizes in systems:
-            lgs = [lgam((c + j) * (c + j), sz, ionic) for j, sz in zip(jj, sizes)]
-            out.append((total, c, [(lb - lg) * ln10 for lb, lg in zip(lbeta, lgs)], jj, lgs, sizes[0]))
+        k_of: dict[float, float] = {}
+        for total, c, lnb, jj, z2s, size in systems:
+            k = k_of.get(size)
+            if k is None:
+                k = k_of[size] = al * dfactor(size, ionic)
+            out.append((total, c, [v + k * z2 for v, z2 in zip(lnb, z2s)], jj, z2s, size, k))
         return out
 
+    def water_gammas(ionic: float) -> tuple[float, float]:
+        return exp(-al * dfactor(SIZE_H, ionic)), exp(-al * dfactor(SIZE_OH, ionic))
+
     def evaluate(x: float, prepared, g_h: float, g_oh: float):
+        """Charge balance F, dF/dx and the ionic strength the species imply."""
         f = q_strong
         df = 0.0
         iz2 = 0.0
         xl = x * ln10
-        for total, c, base, jj, _, _ in prepared:
-            ws = [bb + j * xl for bb, j in zip(base, jj)]
+        for total, c, base, jj, _, _, _ in prepared:
+            ws = [v + j * xl for v, j in zip(base, jj)]
             m = max(ws)
             s0 = s1 = s2 = 0.0
             for w, j in zip(ws, jj):
@@ -195,41 +214,39 @@ def _solve_scalar(systems: list, q_strong: float, i_strong: float, kw: float, a:
         df = ln10 * (df + hc + ohc)
         return f, df, i_strong + 0.5 * (iz2 + hc + ohc), hc, ohc
 
-    def dterm(size: float, ionic: float) -> float:
-        """d/dI of the ionic-strength factor D in log10 γ = -A z² D(I)."""
-        si = math.sqrt(max(ionic, 1e-16))
-        if davies:
-            return 1.0 / (2.0 * si * (1.0 + si) ** 2) - 0.3
-        return 1.0 / (2.0 * si * (1.0 + b * size * si) ** 2)
-
     def joint(x: float, ionic: float, prepared, g_h: float, g_oh: float):
-        """Charge balance F, ionic-strength residual G and their partial derivatives."""
+        """F, G = I_computed - I, and the four partial derivatives."""
+        dd_of: dict[float, float] = {}
         f = q_strong
         fx = fi = gx = gi = 0.0
         ez2 = 0.0
         xl = x * ln10
-        al = ln10 * a
-        for total, c, base, jj, _, size in prepared:
-            ws = [bb + j * xl for bb, j in zip(base, jj)]
+        for total, c, base, jj, z2s, size, _ in prepared:
+            ws = [v + j * xl for v, j in zip(base, jj)]
             m = max(ws)
-            s0 = s1 = s2 = s3 = s4 = sj2 = 0.0
-            for w, j in zip(ws, jj):
+            s0 = s1 = sj2 = s2 = s3 = s4 = 0.0
+            for w, j, z2 in zip(ws, jj, z2s):
                 e = exp(w - m)
-                z = c + j
-                z2 = z * z
+                ej = e * j
+                ez = e * z2
                 s0 += e
-                s1 += e * j
-                sj2 += e * j * j
-                s2 += e * z2
-                s3 += e * j * z2
-                s4 += e * z2 * z2
+                s1 += ej
+                sj2 += ej * j
+                s2 += ez
+                s3 += ez * j
+                s4 += ez * z2
             jbar = s1 / s0
-            j2bar = sj2 / s0
             z2bar = s2 / s0
-            var_j = max(j2bar - jbar * jbar, 0.0)
+            var_j = sj2 / s0 - jbar * jbar
+            if var_j < 0.0:
+                var_j = 0.0
             cov_jz2 = s3 / s0 - jbar * z2bar
-            var_z2 = max(s4 / s0 - z2bar * z2bar, 0.0)
-            dd = al * dterm(size, ionic)
+            var_z2 = s4 / s0 - z2bar * z2bar
+            if var_z2 < 0.0:
+                var_z2 = 0.0
+            dd = dd_of.get(size)
+            if dd is None:
+                dd = dd_of[size] = al * dterm(size, ionic)
             f += total * (c + jbar)
             fx += total * var_j
             fi += total * dd * cov_jz2
@@ -249,15 +266,13 @@ def _solve_scalar(systems: list, q_strong: float, i_strong: float, kw: float, a:
         gi = 0.5 * (gi + dh_ * hc + doh * ohc) - 1.0
         return f, g, fx, fi, gx, gi
 
-    def water_gammas(ionic: float):
-        return 10.0 ** lgam(1.0, SIZE_H, ionic), 10.0 ** lgam(1.0, SIZE_OH, ionic)
-
     x = min(max(x0, _X_LO), _X_HI)
     ionic = i_strong
     # No ionic strength can exceed this (every ion at its largest charge, plus
     # water's ions); capping keeps wild early iterates finite.
-    i_cap = 2.0 * (i_strong + sum(p[0] * max((p[1] + j) ** 2 for j in p[3]) for p in systems)) + 1.0
+    i_cap = 2.0 * (i_strong + sum(p[0] * max(p[4]) for p in systems)) + 1.0
     iterations = 0
+
     # Phase 1: two-dimensional Newton on (x, I) with analytic derivatives:
     # F(x, I) is the charge balance, G(x, I) = I_computed - I.
     if not ideal:
@@ -279,6 +294,7 @@ def _solve_scalar(systems: list, q_strong: float, i_strong: float, kw: float, a:
             ionic = min(new_i, i_cap)
             if abs(dx) < 1e-10 and abs(d_i) <= 1e-11 * ionic + 1e-16:
                 break
+
     # Phase 2: at fixed activity coefficients the balance is monotone in x;
     # safeguarded Newton inside a bracket (bisection whenever Newton leaves
     # it) cannot fail.  Around it, the ionic-strength fixed point.
@@ -288,9 +304,11 @@ def _solve_scalar(systems: list, q_strong: float, i_strong: float, kw: float, a:
         g_h, g_oh = water_gammas(ionic)
         lo, hi = -math.inf, math.inf
         inner_ok = False
+        last = None
         while iterations < max_iter:
             iterations += 1
-            f, df, new_i, hc, ohc = evaluate(x, prepared, g_h, g_oh)
+            last = evaluate(x, prepared, g_h, g_oh)
+            f, df = last[0], last[1]
             if f == 0.0:
                 inner_ok = True
                 break
@@ -300,21 +318,25 @@ def _solve_scalar(systems: list, q_strong: float, i_strong: float, kw: float, a:
                 hi = x
             newton = x - f / df if df > 0 else math.nan
             if abs(newton - x) <= tol * (1.0 + abs(x)):
-                x = newton
+                x = newton           # below tolerance: take the last step, re-evaluate below
+                last = None
                 inner_ok = True
                 break
             if not (lo < newton < hi) or abs(newton - x) > 3.0:
                 if math.isinf(lo):
-                    lo = _bracket_end(evaluate, prepared, g_h, g_oh, x, -1)
+                    lo = _bracket_end(evaluate, prepared, g_h, g_oh, -1)
                 if math.isinf(hi):
-                    hi = _bracket_end(evaluate, prepared, g_h, g_oh, x, +1)
-                newton = 0.5 * (lo + hi) if not (lo < newton < hi) else newton
-            dx = abs(newton - x)
+                    hi = _bracket_end(evaluate, prepared, g_h, g_oh, +1)
+                if not lo < newton < hi:
+                    newton = 0.5 * (lo + hi)
             x = newton
-            if dx <= tol * (1.0 + abs(x)) or (hi - lo) <= 4e-16 * (1.0 + abs(x)):
+            last = None
+            if hi - lo <= 4e-16 * (1.0 + abs(x)):
                 inner_ok = True
                 break
-        f, df, new_i, hc, ohc = evaluate(x, prepared, g_h, g_oh)
+        if last is None:
+            last = evaluate(x, prepared, g_h, g_oh)
+        f, _, new_i, hc, ohc = last
         if ideal:
             converged = inner_ok
             ionic = new_i      # reported for information; γ = 1 regardless
@@ -325,14 +347,25 @@ def _solve_scalar(systems: list, q_strong: float, i_strong: float, kw: float, a:
             break
         new_i = min(new_i, i_cap)
         ionic = new_i if outer < 30 else 0.5 * (ionic + new_i)
-    lgs = [p[4] for p in prepared]
-    scale = hc + ohc + abs(q_strong) + i_strong + sum(
-        p[0] * max(abs(p[1] + j) for j in p[3]) for p in prepared)
-    return (x, ionic, lgs, lgam(1.0, SIZE_H, ionic), lgam(1.0, SIZE_OH, ionic), f, scale,
-            converged, iterations)
+
+    # fractions and activity coefficients at the solution
+    xl = x * ln10
+    alphas, lgs = [], []
+    scale = hc + ohc + abs(q_strong) + i_strong
+    for total, c, base, jj, z2s, _, k in prepared:
+        ws = [v + j * xl for v, j in zip(base, jj)]
+        m = max(ws)
+        es = [exp(w - m) for w in ws]
+        s0 = math.fsum(es)
+        alphas.append([e / s0 for e in es])
+        lgs.append([-k * z2 / ln10 for z2 in z2s])
+        scale += total * sqrt(max(z2s))
+    lg_h = -a * dfactor(SIZE_H, ionic)
+    lg_oh = -a * dfactor(SIZE_OH, ionic)
+    return (x, ionic, alphas, lgs, lg_h, lg_oh, f, scale, converged, iterations)
 
 
-def _bracket_end(evaluate, prepared, g_h, g_oh, x, direction):
+def _bracket_end(evaluate, prepared, g_h, g_oh, direction):
     """A point beyond which the balance has the sign that brackets the root."""
     end = _X_LO if direction < 0 else _X_HI
     for _ in range(8):
@@ -365,12 +398,13 @@ def prepare(mixture: Mixture):
 
 @functools.lru_cache(maxsize=8192)
 def _scalar_system(sys_: AcidBaseSystem, t_c: float) -> tuple:
-    """(c, log_beta, j, sizes) of a system at ``t_c``, in plain floats (cached)."""
+    """(c, ln β, j, z², size) of a system at ``t_c``, in plain floats (cached)."""
     pka = [float(v) for v in sys_.pka_at(t_c)]
     n = sys_.steps
-    lbeta = [math.fsum(pka[k:]) for k in range(n + 1)]
-    return (float(sys_.charge_fully_protonated - n), lbeta, [float(n - k) for k in range(n + 1)],
-            [sys_.ion_size_a] * (n + 1))
+    c = float(sys_.charge_fully_protonated - n)
+    ln_beta = [_LN10 * math.fsum(pka[k:]) for k in range(n + 1)]
+    jj = [float(n - k) for k in range(n + 1)]
+    return c, ln_beta, jj, [(c + j) ** 2 for j in jj], sys_.ion_size_a
 
 
 @functools.lru_cache(maxsize=1024)
@@ -403,19 +437,9 @@ def solve(mixture: Mixture, *, tol: float = 1e-13, max_iter: int = 200) -> Equil
     strong = mixture.strong_ions()
     q, i_s = _strong_sums(strong)
     pkw, a, b = _water_constants(t)
-    sys_data = []
-    for sys_, total in pairs:
-        c, lbeta, jj, sizes = _scalar_system(sys_, t)
-        sys_data.append((total, c, lbeta, jj, sizes))
-    (x, ionic, lgs, lg_h, lg_oh, resid, scale, converged, iterations) = _solve_scalar(
+    sys_data = [(total, *_scalar_system(sys_, t)) for sys_, total in pairs]
+    (x, ionic, alphas, lgs, lg_h, lg_oh, resid, scale, converged, iterations) = _solve_scalar(
         sys_data, q, i_s, 10.0 ** -pkw, a, b, mixture.activity, tol=tol, max_iter=max_iter)
-    alphas = []
-    for (total, c, lbeta, jj, _), lg in zip(sys_data, lgs):
-        ws = [(lb - g) + j * x for lb, g, j in zip(lbeta, lg, jj)]
-        m = max(ws)
-        es = [10.0 ** (w - m) for w in ws]
-        s0 = math.fsum(es)
-        alphas.append([e / s0 for e in es])
     return _assemble(mixture, pairs, strong, x, ionic, alphas, lgs, lg_h, lg_oh, resid, scale,
                      converged, iterations, pkw, a, b)
 
@@ -438,7 +462,7 @@ def _assemble(mixture: Mixture, pairs, strong, x: float, ionic: float, alphas, l
             species.append(Species(name, sys_.name, sys_.steps - k, sys_.charge_of(k),
                                    float(total) * frac, 10.0 ** float(lg[k]), frac))
     for ion, c in strong:
-        lg = float(log_gamma(model, ion.charge ** 2, ion.ion_size_a, ionic, a, b))
+        lg = _log_gamma_scalar(model, ion.charge ** 2, ion.ion_size_a, ionic, a, b)
         species.append(Species(ion.name, "strong", 0, ion.charge, c, 10.0 ** lg, None))
     rel = abs(resid) / scale if scale > 0 else 0.0
     message = ("converged" if converged else
@@ -463,6 +487,16 @@ def equilibrium_at(mixture: Mixture, batch: "_Batch", idx: int) -> Equilibrium:
                      alphas, lgs, float(batch.lg_h[idx]), float(batch.lg_oh[idx]),
                      float(batch.residual[idx]), float(batch.scale[idx]), bool(batch.converged[idx]),
                      batch.iterations, pkw, a, b)
+
+
+def _log_gamma_scalar(model: str, z2: float, size: float, ionic: float, a: float, b: float) -> float:
+    """log10 γ for one ion (plain floats; same equations as :func:`chem.activity.log_gamma`)."""
+    if model == "ideal" or z2 == 0:
+        return 0.0
+    si = math.sqrt(ionic)
+    if model == "davies":
+        return -a * z2 * (si / (1.0 + si) - 0.3 * ionic)
+    return -a * z2 * si / (1.0 + b * size * si)
 
 
 def _warnings(mixture: Mixture, systems, ionic: float, converged: bool, message: str):

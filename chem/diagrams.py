@@ -12,7 +12,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from . import water
-from ._solver import SIZE_H, SIZE_OH
+from ._solver import SIZE_H, SIZE_OH, _Layout
 from .activity import log_gamma
 from .model import AcidBaseSystem, Mixture
 
@@ -31,6 +31,8 @@ class Diagram:
     def __post_init__(self) -> None:
         self.ph.setflags(write=False)
         for arr in self.series.values():
+            if arr.base is not None:
+                arr.base.setflags(write=False)
             arr.setflags(write=False)
 
 
@@ -39,20 +41,22 @@ def default_grid(points: int = 400) -> np.ndarray:
     return np.linspace(0.0, 14.0, points)
 
 
-def _fractions(sys_: AcidBaseSystem, ph: np.ndarray, t_c: float, model: str, ionic: float) -> np.ndarray:
+def _fractions_all(systems: tuple[AcidBaseSystem, ...], ph: np.ndarray, t_c: float, model: str,
+                   ionic: float) -> np.ndarray:
+    """Fractions of every species of every system, shape (points, systems, width).
+
+    One padded computation for all systems (padding gives fraction 0).
+    """
+    lay = _Layout(systems)
     a = float(water.debye_huckel_a(t_c))
     b = float(water.debye_huckel_b(t_c))
-    pka = sys_.pka_at(t_c)
-    n = sys_.steps
-    k = np.arange(n + 1)
-    lbeta = np.array([np.sum(pka[i:]) for i in k])
-    z = sys_.charge_fully_protonated - k
-    lg = log_gamma(model, (z * z).astype(float), sys_.ion_size_a, ionic, a, b)
-    x = -ph[:, None]
-    w = (lbeta - lg)[None, :] + (n - k)[None, :] * x
-    w = w - w.max(axis=1, keepdims=True)
-    e = 10.0 ** w
-    return e / e.sum(axis=1, keepdims=True)
+    lg = log_gamma(model, lay.z * lay.z, lay.size, ionic, a, b)
+    base = lay.log_beta(t_c)[0] - lg                        # (S, M)
+    w = base[None, :, :] - lay.j[None, :, :] * ph[:, None, None]
+    w -= w.max(axis=2, keepdims=True)
+    e = np.power(10.0, w)
+    e /= e.sum(axis=2, keepdims=True)
+    return e
 
 
 def distribution(mixture: Mixture, ph=None, *, ionic_strength: float | None = None,
@@ -73,14 +77,13 @@ def distribution(mixture: Mixture, ph=None, *, ionic_strength: float | None = No
     """
     ph = np.asarray(default_grid() if ph is None else ph, dtype=float)
     ionic = 0.0 if ionic_strength is None else float(ionic_strength)
+    chosen = tuple(s for s, _ in mixture.systems() if systems is None or s.name in systems)
+    frac = _fractions_all(chosen, ph, mixture.temperature_c, mixture.activity, ionic)
     series: dict[str, np.ndarray] = {}
     owners: dict[str, tuple[str, ...]] = {}
-    for sys_, _total in mixture.systems():
-        if systems is not None and sys_.name not in systems:
-            continue
-        frac = _fractions(sys_, ph, mixture.temperature_c, mixture.activity, ionic)
+    for i, sys_ in enumerate(chosen):
         for k, name in enumerate(sys_.species):
-            series[name] = frac[:, k].copy()
+            series[name] = frac[:, i, k]
         owners[sys_.name] = sys_.species
     return Diagram(ph.copy(), series, owners, ionic, mixture.temperature_c)
 
@@ -104,13 +107,12 @@ def log_concentrations(mixture: Mixture, ph=None, *, ionic_strength: float | Non
         "OH-": np.maximum(ph - pkw - lg_oh, floor),
     }
     owners: dict[str, tuple[str, ...]] = {"water": ("H+", "OH-")}
-    for sys_, total in mixture.systems():
-        if total <= 0:
-            continue
-        frac = _fractions(sys_, ph, t, mixture.activity, ionic)
-        with np.errstate(divide="ignore"):
-            logc = np.log10(frac * total)
+    pairs = tuple((s, c) for s, c in mixture.systems() if c > 0)
+    frac = _fractions_all(tuple(s for s, _ in pairs), ph, t, mixture.activity, ionic)
+    with np.errstate(divide="ignore"):
+        logc = np.maximum(np.log10(frac * np.array([c for _, c in pairs])[None, :, None]), floor)
+    for i, (sys_, _total) in enumerate(pairs):
         for k, name in enumerate(sys_.species):
-            series[name] = np.maximum(logc[:, k], floor)
+            series[name] = logc[:, i, k]
         owners[sys_.name] = sys_.species
     return Diagram(ph.copy(), series, owners, ionic, t)

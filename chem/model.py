@@ -268,6 +268,9 @@ class Mixture:
     # -- derived -------------------------------------------------------------
     def systems(self) -> tuple[tuple[AcidBaseSystem, float], ...]:
         """Each acid–base system once, with its total concentration (mol/L)."""
+        cached = self.__dict__.get("_systems")
+        if cached is not None:
+            return cached
         totals: dict[str, list] = {}
         for ing in self.ingredients:
             sys_ = ing.reagent.system
@@ -275,10 +278,15 @@ class Mixture:
                 continue
             entry = totals.setdefault(sys_.name, [sys_, 0.0])
             entry[1] += ing.conc * ing.reagent.units
-        return tuple((s, c) for s, c in totals.values())
+        result = tuple((s, c) for s, c in totals.values())
+        self.__dict__["_systems"] = result      # immutable object: safe to remember
+        return result
 
     def strong_ions(self) -> tuple[tuple[Ion, float], ...]:
         """Each conserved strong ion once, with its total (mol/L). H+/OH- are not included."""
+        cached = self.__dict__.get("_strong")
+        if cached is not None:
+            return cached
         totals: dict[str, list] = {}
         for ing in self.ingredients:
             for ion, n in ing.reagent.counter_ions:
@@ -286,7 +294,9 @@ class Mixture:
                     continue
                 entry = totals.setdefault(ion.name, [ion, 0.0])
                 entry[1] += ing.conc * n
-        return tuple((i, c) for i, c in totals.values())
+        result = tuple((i, c) for i, c in totals.values())
+        self.__dict__["_strong"] = result
+        return result
 
     def strong_acid_excess(self) -> float:
         """Strong acid minus strong base added, mol/L (from H+/OH- counter-ions)."""
@@ -301,7 +311,7 @@ class Notice:
     message: str
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, slots=True)
 class Species:
     name: str
     system: str

@@ -1,0 +1,1 @@
+"""Widgets of the explorer, one per module. They draw what they are given; they never solve."""

@@ -1,0 +1,217 @@
+"""The flask panel: the ingredients of the mixture, one row each, with in-place amount editing."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+from textual import on
+from textual.app import ComposeResult
+from textual.binding import Binding
+from textual.containers import Horizontal, Vertical, VerticalScroll
+from textual.message import Message
+from textual.reactive import reactive
+from textual.widgets import Input, Label
+
+import chem
+from tui.widgets.amount_input import AmountInput
+
+
+class _FlaskRow(Vertical):
+    """One ingredient: its name and amount; while edited, an amount entry and its error line."""
+
+    def __init__(self, ingredient: chem.Ingredient) -> None:
+        super().__init__(classes="flask-row")
+        self.ingredient = ingredient
+
+    def compose(self) -> ComposeResult:
+        with Horizontal(classes="flask-line"):
+            yield Label(self.ingredient.reagent.name, classes="flask-name")
+            yield Label(self.ingredient.label, classes="flask-amount")
+        yield Label("", classes="flask-error")
+
+    def show(self, ingredient: chem.Ingredient) -> None:
+        """Display ``ingredient`` (same row, new amount or reagent)."""
+        self.ingredient = ingredient
+        if self.is_mounted and self.children:
+            self.query_one(".flask-name", Label).update(ingredient.reagent.name)
+            self.query_one(".flask-amount", Label).update(ingredient.label)
+
+    @property
+    def editor(self) -> AmountInput | None:
+        found = self.query(AmountInput)
+        return found.first() if found else None
+
+    def start_edit(self) -> AmountInput:
+        """Swap the amount for an entry holding the current amount text."""
+        editor = AmountInput(self.ingredient.label, molar_mass=self.ingredient.reagent.molar_mass,
+                             classes="flask-editor")
+        self.add_class("-editing")
+        self.query_one(".flask-line").mount(editor)
+        return editor
+
+    def end_edit(self) -> None:
+        """Remove the entry and any error; show the amount again."""
+        self.remove_class("-editing")
+        self.show_error(None)
+        if self.editor is not None:
+            self.editor.remove()
+
+    def show_error(self, message: str | None) -> None:
+        self.set_class(message is not None, "-error")
+        if self.children:
+            self.query_one(".flask-error", Label).update(message or "")
+
+
+class FlaskList(VerticalScroll, can_focus=True):
+    """The ingredients of the flask with a row cursor.
+
+    Data comes down through :attr:`mixture`; edits go up as messages, and the
+    app decides what the new mixture is.
+    """
+
+    BINDINGS = [
+        Binding("up,k", "move(-1)", "Previous", show=False),
+        Binding("down,j", "move(1)", "Next", show=False),
+        Binding("home", "move_to(0)", "First", show=False),
+        Binding("end", "move_to(-1)", "Last", show=False),
+        Binding("enter,e", "edit", "Edit amount", tooltip="Type a new amount for the selected ingredient",
+                id="edit-amount"),
+        Binding("escape", "cancel_edit", "Cancel", show=False),
+        Binding("right", "app.nudge(1, 0)", "More", show=False),
+        Binding("left", "app.nudge(-1, 0)", "Less", show=False),
+        Binding("shift+right", "app.nudge(1, 1)", "A little more", show=False),
+        Binding("shift+left", "app.nudge(-1, 1)", "A little less", show=False),
+        Binding("pageup", "page_up", show=False),
+        Binding("pagedown", "page_down", show=False),
+    ]
+
+    mixture: reactive[chem.Mixture | None] = reactive(None, init=False)
+    """The mixture shown. Replaced, never mutated."""
+    cursor: reactive[int] = reactive(0, init=False)
+    """Index of the selected ingredient."""
+
+    @dataclass
+    class Selected(Message):
+        """The cursor moved to another ingredient (``index`` is -1 for an empty flask)."""
+
+        index: int
+
+    @dataclass
+    class AmountEntered(Message):
+        """A valid amount was typed for ingredient ``index``."""
+
+        index: int
+        conc: float
+        """mol/L"""
+        text: str
+        """The amount as typed, kept for display and saving."""
+
+    def __init__(self, *, id: str | None = None) -> None:
+        super().__init__(id=id)
+        self._rows: list[_FlaskRow] = []
+
+    def compose(self) -> ComposeResult:
+        yield Label("Empty flask: pure water. Press n to add an ingredient.", id="flask-empty")
+
+    @property
+    def rows(self) -> list[_FlaskRow]:
+        """The ingredient rows, in flask order."""
+        return self._rows
+
+    @property
+    def editing(self) -> bool:
+        return any(row.has_class("-editing") for row in self.rows)
+
+    def watch_mixture(self, mixture: chem.Mixture | None) -> None:
+        ingredients = mixture.ingredients if mixture is not None else ()
+        rows = self.rows
+        for row in rows:
+            row.end_edit()
+        if len(rows) == len(ingredients):
+            for row, ingredient in zip(rows, ingredients):
+                row.show(ingredient)
+        else:
+            for row in rows:
+                row.remove()
+            self._rows = [_FlaskRow(ing) for ing in ingredients]
+            self.mount_all(self._rows)
+        self.query_one("#flask-empty").display = not ingredients
+        self.call_after_refresh(self._place_cursor, ingredients)
+
+    def _place_cursor(self, ingredients) -> None:
+        old = self.cursor
+        self.cursor = max(0, min(self.cursor, len(ingredients) - 1))
+        self._mark_cursor()
+        if old == self.cursor:
+            self.post_message(self.Selected(self.cursor if ingredients else -1))
+
+    def watch_cursor(self) -> None:
+        self._mark_cursor()
+        self.post_message(self.Selected(self.cursor if self.rows else -1))
+
+    def _mark_cursor(self) -> None:
+        for i, row in enumerate(self.rows):
+            row.set_class(i == self.cursor, "-cursor")
+            if i == self.cursor:
+                self.scroll_to_widget(row, animate=False)
+
+    def select(self, index: int) -> None:
+        """Put the cursor on ingredient ``index`` (negative counts from the end)."""
+        n = len(self.rows)
+        if n:
+            self.cursor = index % n
+
+    def action_move(self, step: int) -> None:
+        if self.rows:
+            self.cursor = max(0, min(self.cursor + step, len(self.rows) - 1))
+
+    def action_move_to(self, index: int) -> None:
+        self.select(index)
+
+    def action_edit(self) -> None:
+        """Start editing the selected amount in place."""
+        rows = self.rows
+        if not rows or self.editing:
+            return
+        rows[self.cursor].start_edit().focus()
+
+    def action_cancel_edit(self) -> None:
+        self._finish_edit()
+
+    def _finish_edit(self) -> None:
+        for row in self.rows:
+            row.end_edit()
+        self.focus()
+
+    def check_action(self, action: str, parameters: tuple[object, ...]) -> bool | None:
+        if action == "cancel_edit":
+            return self.editing
+        if action == "edit":
+            return bool(self.rows) and not self.editing
+        return True
+
+    @on(Input.Changed, ".flask-editor")
+    def _live_check(self, event: Input.Changed) -> None:
+        row = next(r for r in self.rows if r.editor is event.input)
+        result = event.validation_result
+        row.show_error(None if result is None or result.is_valid else result.failure_descriptions[0])
+
+    @on(Input.Submitted, ".flask-editor")
+    def _submit(self, event: Input.Submitted) -> None:
+        event.stop()
+        editor = event.input
+        assert isinstance(editor, AmountInput)
+        index = next(i for i, r in enumerate(self.rows) if r.editor is editor)
+        conc = editor.concentration
+        if conc is None:
+            self.rows[index].show_error(editor.problem)
+            return
+        text = editor.value.strip()
+        self._finish_edit()
+        self.post_message(self.AmountEntered(index, conc, text))
+
+    @on(Input.Blurred, ".flask-editor")
+    def _abandon(self, event: Input.Blurred) -> None:
+        if self.editing and self.screen.focused is not self:
+            for row in self.rows:
+                row.end_edit()

@@ -1,0 +1,252 @@
+"""The kinds of plot the chart panel can show, and how their text is drawn.
+
+A :class:`PlotKind` pairs a title with a function that turns a solved
+:class:`chem.Equilibrium` and a :class:`PlotRequest` (size, system, style)
+into ready-to-show :class:`rich.text.Text`. The functions run in a worker
+thread: building plotext text is pure Python and costs tens of ms, so it must
+stay off the UI thread. New kinds (titration, buffer capacity, ...) are added
+by appending to :data:`PLOT_KINDS`.
+
+All curve data come from :mod:`chem.diagrams`; this module only draws them.
+"""
+
+from __future__ import annotations
+
+import os
+from dataclasses import dataclass
+from typing import Callable, Mapping, Sequence
+
+import numpy as np
+from rich.text import Text
+
+import chem
+from chem import diagrams
+
+RGB = tuple[int, int, int]
+
+#: Series colours for dark backgrounds: light, saturated hues.
+DARK_SERIES: tuple[RGB, ...] = (
+    (86, 199, 235), (255, 176, 72), (140, 214, 120), (242, 112, 160),
+    (190, 150, 255), (240, 226, 110), (80, 212, 190), (255, 128, 102),
+)
+#: Series colours for light backgrounds: darker hues with good contrast on paper tones.
+LIGHT_SERIES: tuple[RGB, ...] = (
+    (0, 98, 160), (176, 88, 0), (38, 120, 40), (170, 20, 90),
+    (100, 60, 170), (120, 100, 0), (0, 115, 105), (190, 40, 30),
+)
+#: Distinct marker characters, used when colour is off (NO_COLOR): each series gets its own.
+PLAIN_MARKERS = ("*", "o", "+", "x", "#", "%", "@", "=", "~", "^")
+
+_BOX_TO_ASCII = str.maketrans({
+    "─": "-", "│": "|", "┌": "+", "┐": "+", "└": "+", "┘": "+", "┬": "+", "┴": "+",
+    "├": "+", "┤": "+", "┼": "+", "▏": "|", "•": "*",
+})
+
+#: Smallest plot area (cells) worth drawing; below this plotext output is unreadable.
+MIN_WIDTH, MIN_HEIGHT = 30, 8
+
+
+def locale_is_utf8(environ: Mapping[str, str] | None = None) -> bool:
+    """Whether the terminal's locale (LC_ALL, then LC_CTYPE, then LANG) says UTF-8.
+
+    Python may run in UTF-8 mode under ``LANG=C``, so its own encoding says
+    nothing about what the terminal can show.
+    """
+    env = os.environ if environ is None else environ
+    for var in ("LC_ALL", "LC_CTYPE", "LANG"):
+        value = env.get(var)
+        if value:
+            return "utf-8" in value.lower() or "utf8" in value.lower()
+    return False
+
+
+@dataclass(frozen=True)
+class PlotStyle:
+    """How series are told apart on the current terminal and theme."""
+
+    colors: tuple[RGB, ...] | None
+    """Series colours, or None when colour is off."""
+    guide: RGB | None
+    """Colour of the current-pH marker, or None when colour is off."""
+    ascii: bool
+    """Draw with ASCII characters only (no braille, no box drawing)."""
+
+    @classmethod
+    def for_terminal(cls, *, dark: bool, color: bool, utf8: bool) -> "PlotStyle":
+        """The style for a dark or light theme, with or without colour and UTF-8."""
+        if not color:
+            return cls(None, None, not utf8)
+        return cls(DARK_SERIES if dark else LIGHT_SERIES, (235, 235, 235) if dark else (30, 30, 30), not utf8)
+
+    def color(self, i: int) -> RGB | None:
+        return None if self.colors is None else self.colors[i % len(self.colors)]
+
+    def marker(self, i: int) -> str:
+        if self.colors is None:
+            return PLAIN_MARKERS[i % len(PLAIN_MARKERS)]
+        return "*" if self.ascii else "braille"
+
+    def legend_symbol(self, i: int) -> str:
+        if self.colors is None:
+            return PLAIN_MARKERS[i % len(PLAIN_MARKERS)]
+        return "*" if self.ascii else "●"
+
+
+@dataclass(frozen=True)
+class PlotRequest:
+    """What to draw: which kind, how big (cells), which system and in what style."""
+
+    kind: str
+    width: int
+    height: int
+    system: str | None
+    """Only this acid–base system, or None for all of them."""
+    style: PlotStyle
+
+
+@dataclass(frozen=True)
+class PlotKind:
+    """A plot the chart panel can show."""
+
+    id: str
+    title: str
+    """Shown in the panel's border, e.g. "fraction vs pH"."""
+    build: Callable[[chem.Equilibrium, PlotRequest], Text]
+    """Draws the plot for a solved mixture; runs in a worker thread."""
+
+
+def grid_points(width: int) -> int:
+    """Points per curve: about twice the plot width (more cannot be seen, and cost time)."""
+    return int(min(400, max(60, 2 * width)))
+
+
+def _legend(labels: Sequence[str], style: PlotStyle, width: int, max_rows: int) -> Text:
+    """Series names with their symbols, wrapped to ``width``, at most ``max_rows`` lines."""
+    lines: list[Text] = [Text()]
+    for i, label in enumerate(labels):
+        entry = Text()
+        entry.append(style.legend_symbol(i), style=_rich_color(style.color(i)))
+        entry.append(f" {label}")
+        line = lines[-1]
+        need = entry.cell_len + (2 if line.cell_len else 0)
+        if line.cell_len and line.cell_len + need > width:
+            if len(lines) == max_rows:
+                line.append(f"  +{len(labels) - i} more", style="dim")
+                break
+            lines.append(Text())
+            line = lines[-1]
+        if line.cell_len:
+            line.append("  ")
+        line.append_text(entry)
+    return Text("\n").join(lines)
+
+
+def _rich_color(rgb: RGB | None) -> str:
+    return "" if rgb is None else f"rgb({rgb[0]},{rgb[1]},{rgb[2]})"
+
+
+def draw(x: np.ndarray, curves: Sequence[tuple[str, np.ndarray]], ph: float, request: PlotRequest,
+         *, ylabel: str, ylim: tuple[float, float], yticks: Sequence[float]) -> Text:
+    """Draw curves over pH with a marker at the current ``ph``; legend below the axes.
+
+    Args:
+        x: pH grid shared by all curves.
+        curves: (label, values) pairs, one per series.
+        ph: Current pH of the mixture, marked by a vertical line.
+        request: Size and style.
+        ylabel: Label of the y axis.
+        ylim: y axis range.
+        yticks: Tick positions on the y axis.
+
+    Returns:
+        The plot and its legend as one styled text block of ``request`` size at most.
+    """
+    from plotext._figure import _figure_class  # noqa: PLC0415 - deferred: 35 ms, only needed in the worker
+
+    style, width = request.style, request.width
+    legend = _legend([label for label, _ in curves], style, width, max(1, request.height // 6))
+    height = request.height - len(legend.split("\n")) if curves else request.height
+    fig = _figure_class()
+    fig.plotsize(width, height)
+    fig._set_size(width, height)
+    fig.theme("clear")
+    for i, (_, y) in enumerate(curves):
+        fig.plot(x, y, marker=style.marker(i), color=style.color(i))
+    lo, hi = float(x[0]), float(x[-1])
+    fig.xlim(lo, hi)
+    fig.ylim(*ylim)
+    step = 2.0 if width >= 50 else 3.5
+    fig.xticks(list(np.arange(lo, hi + 1e-9, step)))
+    fig.yticks(list(yticks), [f"{t:g}" for t in yticks])
+    fig.xlabel("pH")
+    fig.ylabel(ylabel)
+    if lo <= ph <= hi:
+        fig.vline(ph, style.guide)
+        right = ph > lo + 0.7 * (hi - lo)
+        fig.text(f"pH {ph:.2f}", x=ph - 0.15 if right else ph + 0.15, y=ylim[1],
+                 color=style.guide, alignment="right" if right else "left")
+    out = fig.build()
+    if style.ascii:
+        out = out.translate(_BOX_TO_ASCII)
+    text = Text.from_ansi(out)
+    if curves:
+        text.append("\n")
+        text.append_text(legend)
+    return text
+
+
+def _selected_systems(result: chem.Equilibrium, request: PlotRequest) -> tuple[str, ...] | None:
+    names = {name for name, _ in result.systems}
+    return (request.system,) if request.system in names else None
+
+
+def build_distribution(result: chem.Equilibrium, request: PlotRequest) -> Text:
+    """Fraction of each species of each (or the selected) system vs pH."""
+    ph = diagrams.default_grid(grid_points(request.width))
+    diagram = diagrams.distribution(result.mixture, ph, ionic_strength=result.ionic_strength,
+                                    systems=_selected_systems(result, request))
+    if not diagram.series:
+        return Text("No acid–base system in the flask: nothing to distribute.\n"
+                    "Add an acid, a base or a buffer salt (n).", style="dim")
+    curves = list(diagram.series.items())
+    return draw(diagram.ph, curves, result.pH, request, ylabel="fraction", ylim=(0.0, 1.0),
+                yticks=(0.0, 0.25, 0.5, 0.75, 1.0))
+
+
+def build_log_concentration(result: chem.Equilibrium, request: PlotRequest) -> Text:
+    """log10 of each species' concentration vs pH, with H+ and OH-."""
+    ph = diagrams.default_grid(grid_points(request.width))
+    diagram = diagrams.log_concentrations(result.mixture, ph, ionic_strength=result.ionic_strength)
+    keep = _selected_systems(result, request)
+    curves = [(name, values) for system, names in diagram.systems.items()
+              if keep is None or system == "water" or system in keep
+              for name, values in ((n, diagram.series[n]) for n in names)]
+    low = float(min(v.min() for _, v in curves))
+    high = float(max(v.max() for _, v in curves))
+    step = 2.0 if high - low <= 16 else 4.0
+    bottom, top = step * np.floor(low / step), step * np.ceil(high / step)
+    ticks = np.arange(bottom, top + 1e-9, step)
+    return draw(diagram.ph, curves, result.pH, request, ylabel="log C (M)", ylim=(bottom, top),
+                yticks=tuple(float(t) for t in ticks))
+
+
+PLOT_KINDS: tuple[PlotKind, ...] = (
+    PlotKind("distribution", "fraction vs pH", build_distribution),
+    PlotKind("log-c", "log C vs pH", build_log_concentration),
+)
+"""The plots the chart panel cycles through, in order."""
+
+
+def plot_kind(kind_id: str) -> PlotKind:
+    """The registered plot kind with id ``kind_id``."""
+    for kind in PLOT_KINDS:
+        if kind.id == kind_id:
+            return kind
+    raise KeyError(kind_id)
+
+
+def build_plot(result: chem.Equilibrium, request: PlotRequest) -> Text:
+    """The plot for ``request``, or a short note when the area is too small to draw in."""
+    if request.width < MIN_WIDTH or request.height < MIN_HEIGHT:
+        return Text(f"Enlarge the window to see the plot (needs {MIN_WIDTH}x{MIN_HEIGHT} cells).", style="dim")
+    return plot_kind(request.kind).build(result, request)

@@ -1,0 +1,64 @@
+"""The readout panel: pH in large digits, with the conditions and the state of the solve."""
+
+from __future__ import annotations
+
+from textual.app import ComposeResult
+from textual.containers import Horizontal, Vertical
+from textual.content import Content
+from textual.reactive import reactive
+from textual.widgets import Digits, Label, Static
+
+import chem
+
+
+def signed(value: float, digits: int) -> str:
+    """``+0.123`` / ``-0.123`` / ``±0.000``: a change with its sign always written."""
+    text = f"{value:+.{digits}f}"
+    return "±" + text[1:] if float(text) == 0.0 else text
+
+
+class Readout(Vertical):
+    """pH (large), pOH, temperature, ionic strength, activity model, convergence and notices.
+
+    While a state is pinned, the change of pH against it is shown too.
+    """
+
+    result: reactive[chem.Equilibrium | None] = reactive(None, init=False)
+    """The solved mixture on display."""
+    pinned: reactive[chem.Equilibrium | None] = reactive(None, init=False)
+    """The state changes are measured against, or None."""
+
+    def compose(self) -> ComposeResult:
+        with Horizontal(id="ph-line"):
+            yield Label("pH", id="ph-label")
+            yield Digits("-.--", id="ph-digits")
+            yield Static("", id="ph-side")
+        yield Static("solving…", id="conditions")
+        yield Static("", id="solve-state")
+
+    def watch_result(self) -> None:
+        self._redraw()
+
+    def watch_pinned(self) -> None:
+        self._redraw()
+
+    def _redraw(self) -> None:
+        eq = self.result
+        if eq is None:
+            return
+        self.query_one("#ph-digits", Digits).update(f"{eq.pH:.2f}")
+        parts: list[str | tuple[str, str]] = [(f"pH  {eq.pH:.3f}", "bold"), f"\npOH {eq.pOH:.3f}"]
+        if self.pinned is not None:
+            parts.append((f"\nΔpH {signed(eq.pH - self.pinned.pH, 3)}", "bold $accent"))
+        self.query_one("#ph-side", Static).update(Content.assemble(*parts))
+        mix = eq.mixture
+        self.query_one("#conditions", Static).update(
+            Content(f"{mix.temperature_c:.1f} °C   I {eq.ionic_strength:.3g} M   {mix.activity}"))
+        state: list[str | tuple[str, str]] = [
+            ("✓ converged", "$success") if eq.converged else ("✗ NOT converged", "bold $error")]
+        if eq.cautions:
+            n = len(eq.cautions)
+            state += ["   ", (f"{n} caution{'s' * (n > 1)}", "bold $error")]
+        n = len(eq.warnings)
+        state += ["   ", (f"{n} warning{'s' * (n != 1)}", "$warning" if n else "dim")]
+        self.query_one("#solve-state", Static).update(Content.assemble(*state))

@@ -1,0 +1,46 @@
+"""The title bar: what is in the flask, where it came from and whether it has changed."""
+
+from __future__ import annotations
+
+from textual.content import Content
+from textual.reactive import reactive
+from textual.widgets import Static
+
+
+class TitleBar(Static):
+    """``protomix │ <title> │ <source> ● changed │ pinned``."""
+
+    heading: reactive[str] = reactive("", init=False)
+    """The mixture's title."""
+    source: reactive[str] = reactive("", init=False)
+    """Where the mixture came from (a preset name, "demo", "restored session")."""
+    dirty: reactive[bool] = reactive(False, init=False)
+    """The mixture differs from what was opened or last saved."""
+    pinned: reactive[bool] = reactive(False, init=False)
+    """A state is pinned for comparison."""
+
+    def on_mount(self) -> None:
+        self._redraw()
+
+    def watch_heading(self) -> None:
+        self._redraw()
+
+    def watch_source(self) -> None:
+        self._redraw()
+
+    def watch_dirty(self) -> None:
+        self._redraw()
+
+    def watch_pinned(self) -> None:
+        self._redraw()
+
+    def _redraw(self) -> None:
+        parts: list[str | tuple[str, str]] = [(" protomix ", "bold reverse $primary"), " ",
+                                              (self.heading or "untitled mixture", "bold")]
+        if self.source:
+            parts += ["  │ ", (self.source, "dim")]
+        if self.dirty:
+            parts += ["  ", ("● changed", "$warning")]
+        if self.pinned:
+            parts += ["  ", ("◆ pinned", "bold $accent")]
+        self.update(Content.assemble(*parts))
