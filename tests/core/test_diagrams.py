@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+from pathlib import Path
+
 import numpy as np
 import pytest
 
@@ -26,7 +28,7 @@ def test_fractions_of_each_system_sum_to_one_everywhere():
 
 
 def test_log_c_diagram_matches_solved_concentrations(tmp_path):
-    mix = load_preset("presets/aquaculture-ammonia.toml")
+    mix = load_preset(Path(__file__).resolve().parents[2] / "presets" / "aquaculture-ammonia.toml")
     eq = solve(mix)
     d = log_concentrations(mix, [eq.pH], ionic_strength=eq.ionic_strength, floor=-30)
     for name in ("NH3", "NH4+", "H+", "OH-", "HCO3-"):

@@ -1,0 +1,162 @@
+"""``protomix recipe``: design a buffer that has its pH at the working temperature.
+
+All chemistry (the design, unit reading, the shortcut comparison) happens in
+:mod:`chem.recipe`; this module reads the options and prints the result.
+"""
+
+from __future__ import annotations
+
+import json
+import sys
+from pathlib import Path
+
+HELP = "design a buffer recipe (grams, titrant or stock volumes) for a pH at a temperature"
+
+DESCRIPTION = """\
+Design a buffer that has the target pH at the temperature where it is used,
+solved through the full equilibrium (activity, temperature, water), with the
+Henderson–Hasselbalch shortcut's answer shown beside it.
+
+  protomix recipe --system hepes --pH 7.4 --temp 37 --total "50 mM" --volume "1 L" --salt "NaCl 150 mM"
+  protomix recipe --system tris --pH 8.0 --temp 4 --form titrant --titrant-conc "1 M"
+  protomix recipe --pH 8.0 --temp 4 --suggest
+"""
+
+EPILOG = ("Amounts are for the whole final volume: dissolve, add the listed volumes, make up to volume.\n"
+          "Model estimate: check the pH with a calibrated meter at the working temperature.")
+
+
+def add_arguments(parser) -> None:
+    parser.add_argument("--system", metavar="NAME",
+                        help="buffer system (e.g. phosphate, tris, hepes); omitted: the best-ranked one")
+    parser.add_argument("--pH", type=float, required=True, metavar="PH", help="target pH at the working temperature")
+    parser.add_argument("--temp", type=float, default=25.0, metavar="°C", help="working temperature (default 25)")
+    parser.add_argument("--total", default="50 mM", metavar="CONC",
+                        help='total buffer concentration, all forms (default "50 mM")')
+    parser.add_argument("--volume", default="1 L", metavar="VOL", help='final volume (default "1 L")')
+    parser.add_argument("--form", choices=("reagents", "titrant", "stocks"), default="reagents",
+                        help="two reagents in grams (default), one form plus a titrant, or two stock solutions")
+    parser.add_argument("--salt", action="append", default=[], metavar='"NAME CONC"',
+                        help='background salt, e.g. "NaCl 150 mM" (repeatable)')
+    parser.add_argument("--ionic-strength", metavar="CONC",
+                        help='target ionic strength, reached by adding NaCl (KCl with --cation K), e.g. "0.15 M"')
+    parser.add_argument("--ionic-salt", metavar="NAME", help="salt used to reach --ionic-strength")
+    parser.add_argument("--acid-form", metavar="NAME", help="reagent to use as the acid form")
+    parser.add_argument("--base-form", metavar="NAME", help="reagent to use as the base form")
+    parser.add_argument("--cation", metavar="ION", help="counter-ion of the reagents and titrant (Na, K, ...)")
+    parser.add_argument("--titrant", metavar="NAME", help="strong acid or base for --form titrant")
+    parser.add_argument("--titrant-conc", metavar="CONC", help='titrant stock concentration (default "1 M")')
+    parser.add_argument("--stock-conc", metavar="CONC", help='stock concentration for --form stocks (default "0.5 M")')
+    parser.add_argument("--check-temp", type=float, action="append", metavar="°C",
+                        help="also report the pH of the same solution at this temperature (repeatable)")
+    parser.add_argument("--activity", choices=("davies", "extended-dh", "ideal"), default="davies",
+                        help="activity model (default davies)")
+    parser.add_argument("--save", metavar="FILE.toml", help="save the final solution as a preset")
+    parser.add_argument("--force", action="store_true", help="let --save replace an existing file")
+    parser.add_argument("--suggest", action="store_true", help="rank buffer systems for --pH and --temp")
+    parser.add_argument("--limit", type=int, metavar="N", help="with --suggest: show at most N systems")
+    parser.add_argument("--json", action="store_true", help="print the result as one JSON object")
+
+
+def _num(x: float | None, spec: str) -> str:
+    return "—" if x is None else format(x, spec)
+
+
+def render_recipe(recipe) -> str:
+    """The human-readable report of a :class:`chem.recipe.Recipe`."""
+    from chem import format_molar
+
+    eq = recipe.equilibrium
+    t = recipe.temperature_c
+    vol_ml = recipe.volume * 1000.0
+    out = [f"{recipe.system.name} buffer, pH {recipe.target_pH:g} at {t:g} °C: {format_molar(recipe.total)} total, "
+           f"{vol_ml:.6g} mL   (form: {recipe.form}, activity: {recipe.mixture.activity})", ""]
+    for it in recipe.items:
+        name = it.reagent.name + (f" ({it.reagent.formula})" if it.reagent.formula else "")
+        stock = f" of {format_molar(it.stock_conc)} stock" if it.stock_conc is not None else ""
+        out.append(f"  {it.action:<8} {it.amount:>9.4g} {it.unit:<4} {name + stock:<58} "
+                   f"{format_molar(it.conc):>12}  {it.role}")
+    out.append(f"  water to {vol_ml:.6g} mL at {t:g} °C")
+    out.append("")
+    status = "converged" if eq.converged else "NOT CONVERGED - do not use"
+    out.append(f"full equilibrium: pH {recipe.pH:.3f} at {t:g} °C   ionic strength {recipe.ionic_strength:.4g} M   "
+               f"buffer capacity {recipe.buffer_capacity * 1000:.3g} mM/pH   {status}")
+    pkas = ", ".join(f"{p:.3f}" for p in recipe.pka_at_temperature)
+    out.append(f"  pKa at {t:g} °C (I = 0): {pkas}   useful range about pKa ± 1")
+    for tc, ph in recipe.checks:
+        out.append(f"  same solution at {tc:g} °C: pH {ph:.3f} ({ph - recipe.target_pH:+.3f})")
+    sc = recipe.shortcut
+    out.append(f"Henderson–Hasselbalch shortcut (pKa{sc.step + 1} {sc.pka:g} at 25 °C, concentrations, no activity):")
+    if sc.pH is None:
+        out.append("  no prediction: the recipe is not a mix of one step's acid and base forms")
+    else:
+        out.append(f"  predicts pH {sc.pH:.3f} for this recipe ({sc.pH - recipe.pH:+.3f} against the full equilibrium)")
+    if sc.recipe_pH is not None:
+        out.append(f"  a recipe designed by the shortcut would really give pH {sc.recipe_pH:.3f} at {t:g} °C")
+    for w in recipe.warnings:
+        out.append(f"warning [{w.code}]: {w.message}")
+    for c in recipe.cautions:
+        out.append(f"CAUTION [{c.code}]: {c.message}")
+    out.append("")
+    out.append("Model estimate: check with a calibrated pH meter at the working temperature.")
+    return "\n".join(out)
+
+
+def render_suggestions(suggestions, target: float, t_c: float) -> str:
+    """The ranked list of buffer systems."""
+    from chem import load_library
+
+    lib = load_library()
+    out = [f"buffer systems for pH {target:g} at {t_c:g} °C "
+           "(ranked by |pH − pKa| + drift over 10 K; hazardous systems left out)", ""]
+    head = f"  {'#':>2}  {'system':<18} {'pKa at T':>9} {'dpKa/dT':>9} {'capacity':>13}   forms in the library"
+    out.append(head)
+    out.append("  " + "-" * (len(head) - 2))
+    for i, s in enumerate(suggestions, 1):
+        forms = ", ".join(r.name for r in lib.reagents_of(s.system)) if s.system in lib.systems else ""
+        cap = "—" if s.capacity is None else f"{s.capacity * 1000:.3g} mM/pH"
+        slope = "no data" if s.dpka_dt is None else f"{s.dpka_dt:+.4f}"
+        out.append(f"  {i:>2}  {s.system.name:<18} {s.pka:>9.3f} {slope:>9} {cap:>13}   {forms}")
+    if not suggestions:
+        out.append("  (no system in the library has a pKa within ±1 of this pH)")
+    out.append("")
+    out.append("pKa at the working temperature, I = 0; dpKa/dT in K⁻¹; capacity of a 50 mM solution at the target pH.")
+    return "\n".join(out)
+
+
+def run(args) -> int:
+    from chem.recipe import design_buffer, suggest_systems
+
+    if args.suggest:
+        sugg = suggest_systems(args.pH, args.temp, activity=args.activity, limit=args.limit)
+        if args.json:
+            doc = {"format": 1, "target_pH": args.pH, "temperature_c": args.temp,
+                   "suggestions": [s.to_dict() for s in sugg]}
+            json.dump(doc, sys.stdout, indent=2, ensure_ascii=False)
+            sys.stdout.write("\n")
+        else:
+            print(render_suggestions(sugg, args.pH, args.temp))
+        return 0
+
+    if args.save and not args.force and Path(args.save).exists():
+        print(f"protomix: error: {args.save} already exists; not overwritten (add --force to replace it)",
+              file=sys.stderr)
+        return 2
+    recipe = design_buffer(
+        args.system, args.pH, temperature_c=args.temp, total=args.total, volume=args.volume, form=args.form,
+        salts=args.salt, ionic_strength=args.ionic_strength, ionic_salt=args.ionic_salt,
+        acid_form=args.acid_form, base_form=args.base_form, cation=args.cation, titrant=args.titrant,
+        titrant_conc=args.titrant_conc, stock_conc=args.stock_conc, check_temperatures=args.check_temp,
+        activity=args.activity)
+    if args.json:
+        json.dump(recipe.to_dict(), sys.stdout, indent=2, ensure_ascii=False)
+        sys.stdout.write("\n")
+    else:
+        print(render_recipe(recipe))
+    if args.save:
+        from chem import save_preset
+
+        path = save_preset(recipe.mixture, args.save, overwrite=args.force)
+        print(f"saved preset {path} (read it back with: protomix solve {path})",
+              file=sys.stderr if args.json else sys.stdout)
+    return 0
