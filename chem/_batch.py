@@ -89,48 +89,138 @@ class _Batch:
 # activity terms
 # --------------------------------------------------------------------------
 
-def _d_terms(model: str, ionic: np.ndarray, sizes, b: np.ndarray):
-    """D(I) and dD/dI in log10 γ = -A z² D(I) for ions of the given sizes.
+def _d_terms(model: str, ionic, b, size):
+    """D(I) and dD/dI in log10 γ = -A z² D(I); the arguments broadcast together.
 
-    ``ionic`` and ``b`` have shape (n,); ``sizes`` is a scalar or (S,).
-    Returns arrays of shape (n,) for a scalar size, else (n, S).
+    For the Davies equation D does not depend on the ion size, and the result
+    has the shape of ``ionic``.
     """
     si = np.sqrt(np.maximum(ionic, 0.0))
     sf = np.sqrt(np.maximum(ionic, 1e-16))
-    if np.ndim(sizes):
-        si, sf, ionic_, b = si[:, None], sf[:, None], ionic[:, None], b[:, None]
-    else:
-        ionic_ = ionic
     if model == "davies":
-        d = si / (1.0 + si) - 0.3 * ionic_
-        dp = 1.0 / (2.0 * sf * (1.0 + sf) ** 2) - 0.3
-    else:   # extended Debye–Hückel
-        ba = b * sizes
-        d = si / (1.0 + ba * si)
-        dp = 1.0 / (2.0 * sf * (1.0 + ba * sf) ** 2)
-    if np.ndim(sizes) and model == "davies":
-        d, dp = d[:, :1], dp[:, :1]
-    return d, dp
+        return si / (1.0 + si) - 0.3 * ionic, 1.0 / (2.0 * sf * (1.0 + sf) ** 2) - 0.3
+    ba = b * size     # extended Debye–Hückel
+    return si / (1.0 + ba * si), 1.0 / (2.0 * sf * (1.0 + ba * sf) ** 2)
 
 
-class _Flat:
-    """The species of a layout stored flat, with the matrix that sums per-system moments."""
+class _Constants:
+    """Per-point water and Debye–Hückel constants (P,) and the activity model."""
+
+    def __init__(self, model: str, pkw, a, b):
+        self.model = model
+        self.pkw, self.a, self.b = pkw, a, b
+
+    @classmethod
+    def at(cls, model: str, t_c: np.ndarray) -> "_Constants":
+        return cls(model, np.asarray(water.pkw(t_c), dtype=float),
+                   np.asarray(water.debye_huckel_a(t_c), dtype=float),
+                   np.asarray(water.debye_huckel_b(t_c), dtype=float))
+
+    def take(self, idx) -> "_Constants":
+        return _Constants(self.model, self.pkw[idx], self.a[idx], self.b[idx])
+
+    def systems(self, ionic, sizes, point_axis: int):
+        """A·D and ln10·A·D' of the system species, shaped to broadcast against ``sizes``.
+
+        ``point_axis`` is where the point axis goes: 0 gives (P, 1) or (P, S)
+        for ``sizes`` shaped (S,); 1 gives (1, P) or (S, P) for ``sizes`` (S, 1).
+        """
+        n = ionic.shape[0]
+        shape = (n, 1) if point_axis == 0 else (1, n)
+        if self.model == "ideal":
+            zero = np.zeros(shape)
+            return zero, zero
+        a, b, i = (v.reshape(shape) for v in (self.a, self.b, ionic))
+        d, dp = _d_terms(self.model, i, b, sizes)
+        return a * d, _LN10 * a * dp
+
+    def water(self, ionic):
+        """A·D and ln10·A·D' for H+ and for OH- (each (P,))."""
+        if self.model == "ideal":
+            zero = np.zeros(ionic.shape)
+            return zero, zero, zero, zero
+        d_h, dp_h = _d_terms(self.model, ionic, self.b, SIZE_H)
+        d_oh, dp_oh = _d_terms(self.model, ionic, self.b, SIZE_OH)
+        a, al = self.a, _LN10 * self.a
+        return a * d_h, al * dp_h, a * d_oh, al * dp_oh
+
+
+# --------------------------------------------------------------------------
+# the Newton stage: systems grouped by their number of species, arrays laid
+# out (species, system, point) so that per-system sums run over the first
+# axis; no padding, one exponential per species and point.
+# --------------------------------------------------------------------------
+
+class _Groups:
+    """The systems of a layout grouped by species count, in a permuted order."""
 
     def __init__(self, lay: _Layout):
-        s_idx, m_idx = np.nonzero(lay.mask)
-        self.s_idx, self.m_idx = s_idx, m_idx
-        self.n_sys = s = lay.mask.shape[0]
-        j = lay.j[s_idx, m_idx]
-        z = lay.z[s_idx, m_idx]
-        z2 = z * z
-        self.jln = j * _LN10
-        self.z2 = z2
-        # charge of each system's fully deprotonated form: z = c + j
-        self.c = lay.z[:, 0] - lay.j[:, 0]
-        cols = (np.ones_like(j), j, j * j, z2, j * z2, z2 * z2)
-        self.moments = np.zeros((s_idx.size, 6 * s))
-        for k, col in enumerate(cols):
-            self.moments[np.arange(s_idx.size), k * s + s_idx] = col
+        n_species = lay.mask.sum(axis=1)
+        order: list[int] = []
+        self.parts = []
+        for m in np.unique(n_species):
+            ids = np.nonzero(n_species == m)[0]
+            sl = slice(len(order), len(order) + ids.size)
+            order.extend(int(i) for i in ids)
+            j = lay.j[ids, :m].T[:, :, None]                    # (m, Sg, 1)
+            c = (lay.z[ids, 0] - lay.j[ids, 0])[:, None]        # deprotonated charge, (Sg, 1)
+            self.parts.append((sl, ids, int(m), j, c, (c + j) ** 2))
+        self.order = np.array(order, dtype=int)
+        self.sizes = lay.size[self.order, 0][:, None]          # (S, 1)
+
+    def log_beta(self, log_beta: np.ndarray) -> list[np.ndarray]:
+        """(P, S, M) log10 β -> per group (m, Sg, P) in natural-log units."""
+        return [np.ascontiguousarray(np.transpose(log_beta[:, ids, :m], (2, 1, 0))) * _LN10
+                for _, ids, m, *_ in self.parts]
+
+
+def _joint(groups: _Groups, cst: _Constants, lbs, tot_t, q, i_s, x, ionic):
+    """Charge balance F, ionic-strength residual G and their partial derivatives.
+
+    ``lbs`` is :meth:`_Groups.log_beta` and ``tot_t`` the totals (S, P) in the
+    groups' order.  Raw moments of the bound-proton count j give the moments
+    of z = c + j.
+    """
+    ad_s, dd_s = cst.systems(ionic, groups.sizes, point_axis=1)
+    ad_h, dh, ad_oh, doh = cst.water(ionic)
+    xl = x * _LN10
+    hc = np.exp(_LN10 * (x + ad_h))
+    ohc = np.exp(_LN10 * (-cst.pkw - x + ad_oh))
+    f = q + hc - ohc
+    fx = hc + ohc
+    fi = dh * hc - doh * ohc
+    ez2 = hc + ohc
+    gx = hc - ohc
+    gi = dh * hc + doh * ohc
+    shared = ad_s.shape[0] == 1
+    for (sl, _, _, j, c, z2), lb in zip(groups.parts, lbs):
+        ad = ad_s if shared else ad_s[sl]
+        dd = dd_s if shared else dd_s[sl]
+        e = np.exp(lb + (_LN10 * ad) * z2 + j * xl)
+        inv = 1.0 / _sum(e, axis=0)
+        ej = e * j
+        m1 = _sum(ej, axis=0) * inv
+        ej *= j
+        m2 = _sum(ej, axis=0) * inv
+        ej *= j
+        m3 = _sum(ej, axis=0) * inv
+        ej *= j
+        m4 = _sum(ej, axis=0) * inv
+        c2 = c * c
+        z2bar = c2 + 2.0 * c * m1 + m2
+        var_j = np.maximum(m2 - m1 * m1, 0.0)
+        cov = c2 * m1 + 2.0 * c * m2 + m3 - m1 * z2bar
+        var_z2 = np.maximum(c2 * c2 + 4.0 * c2 * c * m1 + 6.0 * c2 * m2 + 4.0 * c * m3 + m4
+                            - z2bar * z2bar, 0.0)
+        tot = tot_t[sl]
+        f = f + _sum(tot * (c + m1), axis=0)
+        fx = fx + _sum(tot * var_j, axis=0)
+        tc = tot * cov
+        fi = fi + _sum(dd * tc, axis=0)
+        gx = gx + _sum(tc, axis=0)
+        ez2 = ez2 + _sum(tot * z2bar, axis=0)
+        gi = gi + _sum(dd * tot * var_z2, axis=0)
+    return f, i_s + 0.5 * ez2 - ionic, _LN10 * fx, fi, 0.5 * _LN10 * gx, 0.5 * gi - 1.0
 
 
 # --------------------------------------------------------------------------
@@ -177,33 +267,34 @@ def solve_batch(lay: _Layout, log_beta: np.ndarray, totals: np.ndarray, q_strong
     q_strong = np.broadcast_to(np.asarray(q_strong, dtype=float), (p,))
     i_strong = np.broadcast_to(np.asarray(i_strong, dtype=float), (p,))
     t_c = np.broadcast_to(np.asarray(t_c, dtype=float), (p,))
-    consts = _Constants(lay, model, t_c)
+    consts = _Constants.at(model, t_c)
     z2_max = np.where(lay.mask, lay.z * lay.z, 0.0).max(axis=1)
     i_cap = 2.0 * (i_strong + totals @ z2_max) + 1.0
 
-    if x0 is None:
-        x = np.full(p, -7.0)
-    else:
-        x = np.clip(np.asarray(x0, dtype=float), _X_LO, _X_HI) * np.ones(p)
+    x = np.full(p, -7.0) if x0 is None else np.clip(np.asarray(x0, dtype=float) * np.ones(p), _X_LO, _X_HI)
     ionic = i_strong.copy()
     converged = np.zeros(p, dtype=bool)
     iterations = 0
 
     # Stage 1: two-dimensional Newton on (x, I), all points at once; points
     # leave the working set as they converge.
-    flat = _Flat(lay)
-    lb_flat = log_beta[:, flat.s_idx, flat.m_idx] * _LN10
+    groups = _Groups(lay)
+    lbs_all = groups.log_beta(log_beta)
+    tot_all = np.ascontiguousarray(totals[:, groups.order].T)
     act = np.arange(p)
     sub = None
     for _ in range(min(40, max_iter)):
         iterations += 1
         if sub is None or sub[0].size != act.size:
-            sub = (act, lb_flat[act], totals[act], q_strong[act], i_strong[act], consts.take(act), i_cap[act])
+            full = act.size == p
+            sub = (act, lbs_all if full else [lb[:, :, act] for lb in lbs_all],
+                   tot_all if full else tot_all[:, act], q_strong[act], i_strong[act],
+                   consts.take(act), i_cap[act])
         _, lbs, tot, q, i_s, cst, cap = sub
         xa, ia = x[act], ionic[act]
-        f, g, fx, fi, gx, gi = _joint(flat, cst, lbs, tot, q, i_s, xa, ia)
-        det = fx * gi - fi * gx
+        f, g, fx, fi, gx, gi = _joint(groups, cst, lbs, tot, q, i_s, xa, ia)
         with np.errstate(all="ignore"):
+            det = fx * gi - fi * gx
             dx = (f * gi - g * fi) / det
             d_i = (fx * g - gx * f) / det
         ok = np.isfinite(dx) & np.isfinite(d_i)
@@ -226,91 +317,22 @@ def solve_batch(lay: _Layout, log_beta: np.ndarray, totals: np.ndarray, q_strong
     if rest.size:
         xr, ir, conv_r, it = _safeguarded(lay, consts.take(rest), log_beta[rest], totals[rest],
                                           q_strong[rest], i_strong[rest], x[rest], ionic[rest],
-                                          i_cap[rest], model, tol, max_iter)
+                                          i_cap[rest], tol, max_iter)
         x[rest], ionic[rest], converged[rest] = xr, ir, conv_r
         iterations += it
 
-    return _final(lay, consts, log_beta, totals, q_strong, i_strong, x, ionic, converged, iterations, model)
-
-
-class _Constants:
-    """Per-point water and Debye–Hückel constants, and the activity model."""
-
-    def __init__(self, lay: _Layout | None, model: str, t_c: np.ndarray, *, arrays=None):
-        self.model = model
-        self.ideal = model == "ideal"
-        if arrays is not None:
-            self.pkw, self.a, self.b, self.sizes = arrays
-            return
-        self.pkw = np.asarray(water.pkw(t_c), dtype=float)
-        self.a = np.asarray(water.debye_huckel_a(t_c), dtype=float)
-        self.b = np.asarray(water.debye_huckel_b(t_c), dtype=float)
-        self.sizes = lay.size[:, 0]
-
-    def take(self, idx) -> "_Constants":
-        return _Constants(None, self.model, None,
-                          arrays=(self.pkw[idx], self.a[idx], self.b[idx], self.sizes))
-
-    def terms(self, ionic):
-        """(A·D per system (n,S) or (n,1), ln10·A·D' likewise, water's A·D and ln10·A·D' for H+ and OH-)."""
-        n = ionic.shape[0]
-        if self.ideal:
-            zero, zero2 = np.zeros(n), np.zeros((n, 1))
-            return zero2, zero2, zero, zero, zero, zero
-        a = self.a
-        d_s, dp_s = _d_terms(self.model, ionic, self.sizes, self.b)
-        d_h, dp_h = _d_terms(self.model, ionic, SIZE_H, self.b)
-        d_oh, dp_oh = _d_terms(self.model, ionic, SIZE_OH, self.b)
-        al = _LN10 * a
-        return (a[:, None] * d_s, al[:, None] * dp_s, a * d_h, a * d_oh, al * dp_h, al * dp_oh)
-
-
-def _joint(flat: _Flat, cst: _Constants, lb_ln, tot, q, i_s, x, ionic):
-    """Charge balance F, ionic-strength residual G and their partial derivatives (flat layout)."""
-    ad_s, dd_s, ad_h, ad_oh, dh, doh = cst.terms(ionic)
-    s = flat.n_sys
-    if s:
-        ad_flat = ad_s[:, flat_sys_index(flat, ad_s.shape[1])]
-        w = lb_ln + (_LN10 * ad_flat) * flat.z2 + flat.jln * x[:, None]
-        e = np.exp(w)
-        mom = (e @ flat.moments).reshape(-1, 6, s)
-        s0 = mom[:, 0]
-        jbar = mom[:, 1] / s0
-        z2bar = mom[:, 3] / s0
-        var_j = np.maximum(mom[:, 2] / s0 - jbar * jbar, 0.0)
-        cov = mom[:, 4] / s0 - jbar * z2bar
-        var_z2 = np.maximum(mom[:, 5] / s0 - z2bar * z2bar, 0.0)
-        f_sys = _sum(tot * (flat.c + jbar), axis=1)
-        fx_sys = _sum(tot * var_j, axis=1)
-        fi_sys = _sum(tot * dd_s * cov, axis=1)
-        ez2 = _sum(tot * z2bar, axis=1)
-        gx_sys = _sum(tot * cov, axis=1)
-        gi_sys = _sum(tot * dd_s * var_z2, axis=1)
-    else:
-        f_sys = fx_sys = fi_sys = ez2 = gx_sys = gi_sys = 0.0
-    hc = np.exp(_LN10 * (x + ad_h))
-    ohc = np.exp(_LN10 * (-cst.pkw - x + ad_oh))
-    f = q + f_sys + hc - ohc
-    fx = _LN10 * (fx_sys + hc + ohc)
-    fi = fi_sys + dh * hc - doh * ohc
-    g = i_s + 0.5 * (ez2 + hc + ohc) - ionic
-    gx = 0.5 * _LN10 * (gx_sys + hc - ohc)
-    gi = 0.5 * (gi_sys + dh * hc + doh * ohc) - 1.0
-    return f, g, fx, fi, gx, gi
-
-
-def flat_sys_index(flat: _Flat, width: int):
-    """Column of a per-system array (width S, or 1 when shared) for each flat species."""
-    return flat.s_idx if width > 1 else np.zeros_like(flat.s_idx)
+    return _final(lay, consts, log_beta, totals, q_strong, i_strong, x, ionic, converged, iterations)
 
 
 # --------------------------------------------------------------------------
 # padded evaluation (stable for any x) and the safeguarded stage
 # --------------------------------------------------------------------------
 
-def _padded(lay: _Layout, cst: _Constants, log_beta, totals, q, x, ionic):
-    """Everything at (x, I) on the padded layout, with shifted exponents (never overflows)."""
-    ad_s, dd_s, ad_h, ad_oh, dh, doh = cst.terms(ionic)
+def _padded(lay: _Layout, cst: _Constants, log_beta, totals, q, x, ionic) -> dict:
+    """Everything at (x, I) on the padded layout, with shifted exponents and centred
+    moments (stable for any x; used by the safeguarded stage and for the final results)."""
+    ad_s, dd_s = cst.systems(ionic, lay.size[:, 0], point_axis=0)
+    ad_h, dh, ad_oh, doh = cst.water(ionic)
     z, jj = lay.z, lay.j
     z2 = z * z
     lg = -ad_s[:, :, None] * z2
@@ -325,20 +347,19 @@ def _padded(lay: _Layout, cst: _Constants, log_beta, totals, q, x, ionic):
     var_j = _sum(alpha * dj * dj, axis=2)
     cov = _sum(alpha * dj * dz2, axis=2)
     var_z2 = _sum(alpha * dz2 * dz2, axis=2)
-    lg_h, lg_oh = -ad_h, -ad_oh
-    hc = np.power(10.0, x - lg_h)
-    ohc = np.power(10.0, -cst.pkw - x - lg_oh)
+    hc = np.power(10.0, x + ad_h)
+    ohc = np.power(10.0, -cst.pkw - x + ad_oh)
     f = q + _sum(totals * zbar, axis=1) + hc - ohc
     fx = _LN10 * (_sum(totals * var_j, axis=1) + hc + ohc)
     fi = _sum(totals * dd_s * cov, axis=1) + dh * hc - doh * ohc
     ez2 = _sum(totals * z2bar, axis=1)
     gx = 0.5 * _LN10 * (_sum(totals * cov, axis=1) + hc - ohc)
     gi = 0.5 * (_sum(totals * dd_s * var_z2, axis=1) + dh * hc + doh * ohc) - 1.0
-    return dict(alpha=alpha, lg=lg, lg_h=lg_h, lg_oh=lg_oh, hc=hc, ohc=ohc, zbar=zbar, z2bar=z2bar,
+    return dict(alpha=alpha, lg=lg, lg_h=-ad_h, lg_oh=-ad_oh, hc=hc, ohc=ohc, zbar=zbar, z2bar=z2bar,
                 f=f, fx=fx, fi=fi, ez2=ez2, gx=gx, gi=gi)
 
 
-def _safeguarded(lay, cst, log_beta, totals, q, i_s, x, ionic, i_cap, model, tol, max_iter):
+def _safeguarded(lay, cst, log_beta, totals, q, i_s, x, ionic, i_cap, tol, max_iter):
     """Bracketed Newton at fixed activity coefficients, inside the ionic-strength fixed point."""
     n = x.size
     x = x.copy()
@@ -377,7 +398,7 @@ def _safeguarded(lay, cst, log_beta, totals, q, i_s, x, ionic, i_cap, model, tol
                 break
         ev = balance(x)
         new_i = i_s + 0.5 * (ev["ez2"] + ev["hc"] + ev["ohc"])
-        if model == "ideal":
+        if cst.model == "ideal":
             return x, new_i, inner_ok, iterations
         i_ok = np.abs(new_i - ionic) <= 1e-10 * new_i + 1e-15
         converged = inner_ok & i_ok
@@ -388,15 +409,14 @@ def _safeguarded(lay, cst, log_beta, totals, q, i_s, x, ionic, i_cap, model, tol
     return x, ionic, converged, iterations
 
 
-def _final(lay, consts, log_beta, totals, q, i_s, x, ionic, converged, iterations, model) -> _Batch:
+def _final(lay, consts, log_beta, totals, q, i_s, x, ionic, converged, iterations) -> _Batch:
+    """The result arrays at the solution, with the Jacobian there."""
     ev = _padded(lay, consts, log_beta, totals, q, x, ionic)
     hc, ohc, alpha = ev["hc"], ev["ohc"], ev["alpha"]
-    if model == "ideal":
+    if consts.model == "ideal":
         # γ = 1 does not depend on I; report the ionic strength the ions make.
         ionic = i_s + 0.5 * (ev["ez2"] + hc + ohc)
     scale = hc + ohc + _sum(totals * _sum(alpha * np.abs(lay.z), axis=2), axis=1) + np.abs(q) + i_s
-    for arr in (x, ionic, converged):
-        arr.setflags(write=False)
     return _Batch(x=x, ionic=ionic, alpha=alpha, lg=ev["lg"], lg_h=ev["lg_h"], lg_oh=ev["lg_oh"],
                   residual=ev["f"], scale=scale, converged=converged, iterations=iterations,
                   h=hc, oh=ohc, zbar=ev["zbar"], z2bar=ev["z2bar"], fx=ev["fx"], fi=ev["fi"],

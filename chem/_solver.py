@@ -140,10 +140,10 @@ def _solve_scalar(systems: list, q_strong: float, i_strong: float, kw: float, a:
                   model: str, *, tol: float, max_iter: int, x0: float = -7.0):
     """Solve one mixture.
 
-    ``systems`` lists ``(total, c, ln_beta, j, z2, size)`` per acid–base system:
-    total (mol/L), the charge ``c`` of the fully deprotonated form, and per
+    ``systems`` lists ``(total, c, ln_beta, j, z2, size, z)`` per acid–base
+    system: total (mol/L), the charge ``c`` of the fully deprotonated form, per
     species the natural-log formation constant, bound protons and squared
-    charge, plus the system's ion size (Å).  Returns
+    charge, the system's ion size (Å), and per species the charge.  Returns
     ``(x, ionic, alphas, lgs, lg_h, lg_oh, residual, scale, converged, iterations)``
     with x = log10 a(H+), ``alphas`` the fractions and ``lgs`` the log10 γ of
     each system's species.
@@ -172,14 +172,14 @@ def _solve_scalar(systems: list, q_strong: float, i_strong: float, kw: float, a:
         return 1.0 / (2.0 * si * (1.0 + b * size * si) ** 2)
 
     def bases(ionic: float):
-        """Per system: (total, c, ln β - ln γ per species, j, z², size, A·ln10·D)."""
+        """Per system: (total, z, ln β - ln γ per species, j, z², size, A·ln10·D)."""
         out = []
         k_of: dict[float, float] = {}
-        for total, c, lnb, jj, z2s, size in systems:
+        for total, c, lnb, jj, z2s, size, zs in systems:
             k = k_of.get(size)
             if k is None:
                 k = k_of[size] = al * dfactor(size, ionic)
-            out.append((total, c, [v + k * z2 for v, z2 in zip(lnb, z2s)], jj, z2s, size, k))
+            out.append((total, zs, [v + k * z2 for v, z2 in zip(lnb, z2s)], jj, z2s, size, k))
         return out
 
     def water_gammas(ionic: float) -> tuple[float, float]:
@@ -191,22 +191,22 @@ def _solve_scalar(systems: list, q_strong: float, i_strong: float, kw: float, a:
         df = 0.0
         iz2 = 0.0
         xl = x * ln10
-        for total, c, base, jj, _, _, _ in prepared:
+        for total, zs, base, jj, z2s, _, _ in prepared:
             ws = [v + j * xl for v, j in zip(base, jj)]
             m = max(ws)
             s0 = s1 = s2 = 0.0
-            for w, j in zip(ws, jj):
+            for w, z, z2 in zip(ws, zs, z2s):
                 e = exp(w - m)
                 s0 += e
-                s1 += e * j
-                s2 += e * j * j
-            jbar = s1 / s0
-            j2bar = s2 / s0
-            f += total * (c + jbar)
-            var = j2bar - jbar * jbar
+                s1 += e * z          # Σα z directly: no cancellation in the charge balance
+                s2 += e * z2
+            zbar = s1 / s0
+            z2bar = s2 / s0
+            f += total * zbar
+            var = z2bar - zbar * zbar     # var(j) = var(z)
             if var > 0.0:
                 df += total * var
-            iz2 += total * (c * c + 2.0 * c * jbar + j2bar)
+            iz2 += total * z2bar
         h = exp(xl)
         hc = h / g_h
         ohc = kw / (h * g_oh)
@@ -221,33 +221,31 @@ def _solve_scalar(systems: list, q_strong: float, i_strong: float, kw: float, a:
         fx = fi = gx = gi = 0.0
         ez2 = 0.0
         xl = x * ln10
-        for total, c, base, jj, z2s, size, _ in prepared:
+        for total, zs, base, jj, z2s, size, _ in prepared:
             ws = [v + j * xl for v, j in zip(base, jj)]
             m = max(ws)
-            s0 = s1 = sj2 = s2 = s3 = s4 = 0.0
-            for w, j, z2 in zip(ws, jj, z2s):
+            s0 = s1 = s2 = s3 = s4 = 0.0
+            for w, z, z2 in zip(ws, zs, z2s):
                 e = exp(w - m)
-                ej = e * j
                 ez = e * z2
                 s0 += e
-                s1 += ej
-                sj2 += ej * j
+                s1 += e * z
                 s2 += ez
-                s3 += ez * j
+                s3 += ez * z
                 s4 += ez * z2
-            jbar = s1 / s0
+            zbar = s1 / s0
             z2bar = s2 / s0
-            var_j = sj2 / s0 - jbar * jbar
+            var_j = z2bar - zbar * zbar          # var(j) = var(z), cov(j, z²) = cov(z, z²)
             if var_j < 0.0:
                 var_j = 0.0
-            cov_jz2 = s3 / s0 - jbar * z2bar
+            cov_jz2 = s3 / s0 - zbar * z2bar
             var_z2 = s4 / s0 - z2bar * z2bar
             if var_z2 < 0.0:
                 var_z2 = 0.0
             dd = dd_of.get(size)
             if dd is None:
                 dd = dd_of[size] = al * dterm(size, ionic)
-            f += total * (c + jbar)
+            f += total * zbar
             fx += total * var_j
             fi += total * dd * cov_jz2
             ez2 += total * z2bar
@@ -352,7 +350,7 @@ def _solve_scalar(systems: list, q_strong: float, i_strong: float, kw: float, a:
     xl = x * ln10
     alphas, lgs = [], []
     scale = hc + ohc + abs(q_strong) + i_strong
-    for total, c, base, jj, z2s, _, k in prepared:
+    for total, _, base, jj, z2s, _, k in prepared:
         ws = [v + j * xl for v, j in zip(base, jj)]
         m = max(ws)
         es = [exp(w - m) for w in ws]
@@ -398,13 +396,14 @@ def prepare(mixture: Mixture):
 
 @functools.lru_cache(maxsize=8192)
 def _scalar_system(sys_: AcidBaseSystem, t_c: float) -> tuple:
-    """(c, ln β, j, z², size) of a system at ``t_c``, in plain floats (cached)."""
+    """(c, ln β, j, z², size, z) of a system at ``t_c``, in plain floats (cached)."""
     pka = [float(v) for v in sys_.pka_at(t_c)]
     n = sys_.steps
     c = float(sys_.charge_fully_protonated - n)
     ln_beta = [_LN10 * math.fsum(pka[k:]) for k in range(n + 1)]
     jj = [float(n - k) for k in range(n + 1)]
-    return c, ln_beta, jj, [(c + j) ** 2 for j in jj], sys_.ion_size_a
+    zs = [c + j for j in jj]
+    return c, ln_beta, jj, [z * z for z in zs], sys_.ion_size_a, zs
 
 
 @functools.lru_cache(maxsize=1024)

@@ -168,6 +168,11 @@ class Recipe:
         return self.equilibrium.cautions
 
     @property
+    def volume_label(self) -> str:
+        """The final volume with a readable unit, e.g. "250 mL"."""
+        return format_volume(self.volume)
+
+    @property
     def pka_at_temperature(self) -> tuple[float, ...]:
         """Thermodynamic pKa of each step at the working temperature (I = 0)."""
         return tuple(float(p) for p in self.system.pka_at(self.temperature_c))
@@ -291,6 +296,14 @@ def parse_addition(text: str, library: Library | None = None) -> tuple[Reagent, 
     reagent = library.reagent(m.group("name"))
     amount = m.group("amount").strip()
     return reagent, parse_concentration(amount, molar_mass=reagent.molar_mass), amount
+
+
+def format_volume(litres: float) -> str:
+    """A volume with a readable unit: 0.25 -> "250 mL", 2.0 -> "2 L"."""
+    for unit, f in (("L", 1.0), ("mL", 1e-3), ("uL", 1e-6)):
+        if litres >= f * 0.9999999:
+            return f"{litres / f:.6g} {unit}"
+    return f"{litres:.3g} L"
 
 
 def _cation_name(text: str, library: Library) -> str:
@@ -479,20 +492,21 @@ def _titrant_plans(req: _Request, lib: Library, weighed, titrant, titrant_conc, 
     order = {r.name: i for i, r in enumerate(lib.reagents)}
     forms.sort(key=lambda r: (round(abs(proton_level(r) - want), 9), 0 if _cations(r) <= {cation or "Na+"} else 1,
                               _is_hydrate(r), _carries_strong(r), order.get(r.name, 0)))
+    if titrant is not None and (titrant.system is not None or titrant.strong_acid_equivalents == 0):
+        raise RecipeError(f"'{titrant.name}' is not a strong acid or base; a titrant must be one (e.g. HCl or NaOH)")
     plans = []
+    mismatch = None
     total = req.total
     for w in forms:
         nw = proton_level(w)
         alone = solve(_mixture(req, ((w, "weighed form", total / w.units),), 0.0))
         sign = 1 if alone.pH > req.target else -1          # +1: acid needed
         if titrant is not None:
-            if titrant.system is not None or titrant.strong_acid_equivalents == 0:
-                raise RecipeError(f"'{titrant.name}' is not a strong acid or base; "
-                                  "a titrant must be one (e.g. HCl or NaOH)")
             if titrant.strong_acid_equivalents * sign < 0:
                 need = "an acid" if sign > 0 else "a base"
-                raise RecipeError(f"{w.name} alone gives pH {alone.pH:.2f} at {req.t_c:g} °C, so reaching "
-                                  f"pH {req.target:g} needs {need}; '{titrant.name}' is not one")
+                mismatch = mismatch or (f"{w.name} alone gives pH {alone.pH:.2f} at {req.t_c:g} °C, so reaching "
+                                        f"pH {req.target:g} needs {need}; '{titrant.name}' is not one")
+                continue
             t = titrant
         else:
             candidates = _strong_reagents(lib, sign, cation)
@@ -509,6 +523,8 @@ def _titrant_plans(req: _Request, lib: Library, weighed, titrant, titrant_conc, 
 
         plans.append(_Plan("titrant", lo, hi, build,
                            f"{w.name} with up to the whole volume of {format_molar(titrant_conc)} {t.name}"))
+    if not plans:
+        raise RecipeError(mismatch)
     return plans
 
 
@@ -544,8 +560,8 @@ def _items(req: _Request, form: str, parts, extra: float, volume: float, titrant
     items += [weigh(r, "salt", c) for r, c in merged.values() if c > 0]
     piped = sum(i.amount for i in items if i.unit == "mL") / 1000.0
     if piped > volume * (1 + 1e-12):
-        raise RecipeError(f"the stocks add up to {piped * 1000:.4g} mL, more than the final "
-                          f"{volume * 1000:.4g} mL; use more concentrated stocks")
+        raise RecipeError(f"the stocks add up to {format_volume(piped)}, more than the final "
+                          f"{format_volume(volume)}; use more concentrated stocks")
     return tuple(items), notices
 
 
@@ -574,7 +590,7 @@ def _shortcut(req: _Request, plan: _Plan, parts, extra: float) -> Shortcut:
 
 
 def _notes_text(req: _Request, form: str, items: Sequence[RecipeItem], volume: float) -> str:
-    lines = [f"Buffer recipe ({form}) for {volume * 1000:.6g} mL: "
+    lines = [f"Buffer recipe ({form}) for {format_volume(volume)}: "
              f"{req.system.name} {format_molar(req.total)}, pH {req.target:g} at {req.t_c:g} °C "
              f"({req.activity} activity)."]
     for it in items:
@@ -582,7 +598,7 @@ def _notes_text(req: _Request, form: str, items: Sequence[RecipeItem], volume: f
         if it.stock_conc is not None:
             what += f" ({format_molar(it.stock_conc)} stock)"
         lines.append(f"{it.action} {what}")
-    lines.append(f"water to {volume * 1000:.6g} mL")
+    lines.append(f"water to {format_volume(volume)}")
     return "\n".join(lines)
 
 

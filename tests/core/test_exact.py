@@ -125,3 +125,17 @@ def test_activity_corrected_constant_holds_in_solution(lib):
     ha, a = eq.get("CH3COOH"), eq.get("CH3COO-")
     pka = -mp.log10(10 ** -eq.pH * a.activity / ha.activity)
     assert float(pka) == pytest.approx(float(lib.system("acetate").pka_at(30.0)[0]), abs=1e-9)
+
+
+def test_tableau_lists_components_species_and_formation_constants(lib):
+    from chem import Mixture, tableau
+
+    mix = Mixture((Ingredient(lib.reagent("KH2PO4"), 0.01), Ingredient(lib.reagent("acetic acid"), 0.01)))
+    tab = tableau(mix)
+    assert tab.components[0] == "H+"
+    row = tab.species.index("H2PO4-")
+    # H2PO4- = PO4^3- + 2 H+ ; log β2 = pKa3 + pKa2
+    assert list(tab.stoichiometry[row]) == [2, 1, 0]
+    pka = lib.system("phosphate").pka
+    assert tab.log_beta[row] == pytest.approx(pka[1] + pka[2], abs=1e-12)
+    assert tab.charges[row] == -1

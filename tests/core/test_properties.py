@@ -89,3 +89,20 @@ def test_starved_solver_says_it_did_not_converge():
     eq = solve(mix, max_iter=1)
     assert eq.converged is False
     assert any(w.code == "not-converged" for w in eq.warnings)
+
+
+concentrated = st.builds(
+    lambda ings, t, model: Mixture(tuple(ings), temperature_c=t, activity=model),
+    st.lists(st.builds(lambda i, logc: Ingredient(REAGENTS[i], 10.0 ** logc),
+                       st.integers(0, len(REAGENTS) - 1), st.floats(-12.0, math.log10(5.0))),
+             min_size=1, max_size=4),
+    st.floats(0.0, 100.0), st.sampled_from(MODELS))
+
+
+@settings(max_examples=100, deadline=None)
+@given(concentrated)
+def test_concentrated_mixtures_up_to_5_molar_converge(mix):
+    eq = solve(mix)
+    assert eq.converged, eq.message
+    net = sum(s.charge * s.conc for s in eq.species)
+    assert abs(net) <= 1e-12 * charge_scale(eq)

@@ -58,29 +58,28 @@ def add_arguments(parser) -> None:
     parser.add_argument("--json", action="store_true", help="print the result as one JSON object")
 
 
-def _num(x: float | None, spec: str) -> str:
-    return "—" if x is None else format(x, spec)
-
-
 def render_recipe(recipe) -> str:
     """The human-readable report of a :class:`chem.recipe.Recipe`."""
     from chem import format_molar
 
     eq = recipe.equilibrium
+    doc = recipe.to_dict()
     t = recipe.temperature_c
-    vol_ml = recipe.volume * 1000.0
     out = [f"{recipe.system.name} buffer, pH {recipe.target_pH:g} at {t:g} °C: {format_molar(recipe.total)} total, "
-           f"{vol_ml:.6g} mL   (form: {recipe.form}, activity: {recipe.mixture.activity})", ""]
+           f"{recipe.volume_label}   (form: {recipe.form}, activity: {recipe.mixture.activity})", ""]
+    names = []
     for it in recipe.items:
         name = it.reagent.name + (f" ({it.reagent.formula})" if it.reagent.formula else "")
-        stock = f" of {format_molar(it.stock_conc)} stock" if it.stock_conc is not None else ""
-        out.append(f"  {it.action:<8} {it.amount:>9.4g} {it.unit:<4} {name + stock:<58} "
-                   f"{format_molar(it.conc):>12}  {it.role}")
-    out.append(f"  water to {vol_ml:.6g} mL at {t:g} °C")
+        names.append(name + (f", {format_molar(it.stock_conc)} stock" if it.stock_conc is not None else ""))
+    width = max((len(n) for n in names), default=0)
+    for it, name in zip(recipe.items, names):
+        out.append(f"  {it.action:<7} {it.amount:>9.4g} {it.unit:<4} {name:<{width}}   "
+                   f"final {format_molar(it.conc):<12} {it.role}")
+    out.append(f"  water to {recipe.volume_label} at {t:g} °C")
     out.append("")
     status = "converged" if eq.converged else "NOT CONVERGED - do not use"
     out.append(f"full equilibrium: pH {recipe.pH:.3f} at {t:g} °C   ionic strength {recipe.ionic_strength:.4g} M   "
-               f"buffer capacity {recipe.buffer_capacity * 1000:.3g} mM/pH   {status}")
+               f"buffer capacity {doc['buffer_capacity_mM_per_pH']:.3g} mM/pH   {status}")
     pkas = ", ".join(f"{p:.3f}" for p in recipe.pka_at_temperature)
     out.append(f"  pKa at {t:g} °C (I = 0): {pkas}   useful range about pKa ± 1")
     for tc, ph in recipe.checks:
@@ -109,18 +108,22 @@ def render_suggestions(suggestions, target: float, t_c: float) -> str:
     lib = load_library()
     out = [f"buffer systems for pH {target:g} at {t_c:g} °C "
            "(ranked by |pH − pKa| + drift over 10 K; hazardous systems left out)", ""]
-    head = f"  {'#':>2}  {'system':<18} {'pKa at T':>9} {'dpKa/dT':>9} {'capacity':>13}   forms in the library"
+    head = (f"  {'#':>2}  {'system':<18} {'step':>4} {'pKa':>7} {'dpKa/dT':>9} {'capacity':>13}   "
+            "forms in the library")
     out.append(head)
     out.append("  " + "-" * (len(head) - 2))
     for i, s in enumerate(suggestions, 1):
-        forms = ", ".join(r.name for r in lib.reagents_of(s.system)) if s.system in lib.systems else ""
-        cap = "—" if s.capacity is None else f"{s.capacity * 1000:.3g} mM/pH"
+        names = [r.name for r in lib.reagents_of(s.system)]
+        forms = ", ".join(names[:3]) + (f" (+{len(names) - 3} more)" if len(names) > 3 else "")
+        cap = s.to_dict()["capacity_mM_per_pH"]
+        cap = "—" if cap is None else f"{cap:.3g} mM/pH"
         slope = "no data" if s.dpka_dt is None else f"{s.dpka_dt:+.4f}"
-        out.append(f"  {i:>2}  {s.system.name:<18} {s.pka:>9.3f} {slope:>9} {cap:>13}   {forms}")
+        out.append(f"  {i:>2}  {s.system.name:<18} {s.step + 1:>4} {s.pka:>7.3f} {slope:>9} {cap:>13}   {forms}")
     if not suggestions:
         out.append("  (no system in the library has a pKa within ±1 of this pH)")
     out.append("")
-    out.append("pKa at the working temperature, I = 0; dpKa/dT in K⁻¹; capacity of a 50 mM solution at the target pH.")
+    out.append(f"pKa of that step at {t_c:g} °C and I = 0; dpKa/dT in K⁻¹; capacity of a 50 mM solution "
+               "at the target pH.\nMake one with: protomix recipe --system NAME --pH ... --temp ...")
     return "\n".join(out)
 
 

@@ -37,16 +37,21 @@ class AmountInput(Input):
             id: Widget id.
             classes: CSS classes.
         """
-        self.molar_mass = molar_mass
-        super().__init__(value, placeholder="amount, e.g. 25 mM", validators=[AmountValidator(molar_mass)],
+        self._validator = AmountValidator(molar_mass)
+        super().__init__(value, placeholder="amount, e.g. 25 mM", validators=[self._validator],
                          validate_on=["changed", "submitted"], compact=compact, select_on_focus=True,
                          id=id, classes=classes)
+
+    def use_molar_mass(self, molar_mass: float | None) -> None:
+        """Check amounts for a reagent of this molar mass (g/mol; None refuses g/L and mg/L)."""
+        self._validator.molar_mass = molar_mass
+        self.validate(self.value)
 
     @property
     def concentration(self) -> float | None:
         """The amount in mol/L, or None while the text is not a valid amount."""
         try:
-            return chem.parse_concentration(self.value, molar_mass=self.molar_mass)
+            return chem.parse_concentration(self.value, molar_mass=self._validator.molar_mass)
         except chem.ChemError:
             return None
 

@@ -1,0 +1,537 @@
+"""The full-screen explorer: a flask of reagents, solved live.
+
+Data flows one way. An edit makes a new :class:`chem.Mixture`; the app keeps
+it in :attr:`ExplorerApp.mixture` and hands it down to the widgets. A thread
+worker solves it and builds the plot text, then posts :class:`Solved` and
+:class:`Plotted` back; each carries the generation of its request, and only the
+newest is shown. Widgets draw; only :mod:`chem` computes.
+"""
+
+from __future__ import annotations
+
+import sys
+from dataclasses import dataclass, replace
+from pathlib import Path
+from typing import Iterable
+
+from textual import on, work
+from textual.app import App, ComposeResult, SystemCommand
+from textual.binding import Binding
+from textual.containers import Horizontal
+from textual.reactive import reactive
+from textual.screen import Screen
+from textual.theme import Theme
+from textual.widgets import Footer
+from textual.worker import Worker, WorkerState, get_current_worker
+
+import chem
+from chem.activity import MODELS
+from tui import storage
+from tui.messages import Plotted, Solved
+from tui.widgets.flask_list import FlaskList
+from tui.widgets.notice_bar import NoticeBar
+from tui.widgets.plot_area import PlotArea
+from tui.widgets.plot_kinds import PLOT_KINDS, PlotRequest, PlotStyle, build_plot, locale_is_utf8, plot_kind
+from tui.widgets.readout import Readout
+from tui.widgets.species_table import SpeciesTable
+from tui.widgets.title_bar import TitleBar
+
+#: Amount nudges: a coarse and a fine factor per key press.
+NUDGE_FACTORS = (1.25, 1.05)
+#: Temperature nudge per key press, °C.
+TEMPERATURE_STEP = 1.0
+#: Undo steps kept.
+HISTORY_LIMIT = 500
+
+NIGHT = Theme(
+    name="protomix-night", dark=True,
+    primary="#3DB8A9", secondary="#D9A441", accent="#C792EA",
+    warning="#E8B04B", error="#EF6461", success="#6CCB8A",
+    foreground="#DCE3E8", background="#0E1417", surface="#141C21", panel="#1B262C",
+)
+DAY = Theme(
+    name="protomix-day", dark=False,
+    primary="#12766B", secondary="#8C5A00", accent="#7A3FB5",
+    warning="#8A5200", error="#B3261E", success="#2E7D32",
+    foreground="#1E2A30", background="#F2EFE7", surface="#FBF9F3", panel="#E4DFD2",
+)
+
+
+@dataclass(frozen=True)
+class Command:
+    """One user action: its key, what the footer and palette call it, and a line of help."""
+
+    key: str
+    action: str
+    label: str
+    help: str
+    footer: bool = False
+    key_display: str | None = None
+
+
+#: Every explorer action. The key bindings and the command palette are both built from this list;
+#: keys handled by the flask panel itself (edit, nudge by arrow) are listed for the palette only.
+COMMANDS: tuple[Command, ...] = (
+    Command("f1,question_mark", "help", "Help", "Every key and what each panel shows", True, "F1"),
+    Command("n", "add", "Add", "Add a reagent from the library (filter as you type)", True),
+    Command("", "edit_amount", "Edit amount", "Type a new amount for the selected ingredient (enter)"),
+    Command("x,delete", "remove", "Remove", "Remove the selected ingredient", True),
+    Command("plus,equals_sign", "nudge(1, 0)", "More", "Selected amount ×1.25 (→ in the flask)",
+            key_display="+"),
+    Command("minus", "nudge(-1, 0)", "Less", "Selected amount ÷1.25 (← in the flask)", key_display="-"),
+    Command("", "nudge(1, 1)", "A little more", "Selected amount ×1.05 (shift+→ in the flask)"),
+    Command("", "nudge(-1, 1)", "A little less", "Selected amount ÷1.05 (shift+← in the flask)"),
+    Command("t", "temperature(1)", "Warmer", "Temperature +1 °C"),
+    Command("T", "temperature(-1)", "Cooler", "Temperature -1 °C"),
+    Command("m", "cycle_model", "Model", "Cycle the activity model (ideal, davies, extended-dh)"),
+    Command("c", "custom", "Custom", "Define an acid–base species of your own and add it"),
+    Command("p", "pin", "Pin", "Pin this state; show changes against it (again: unpin)", True),
+    Command("u,ctrl+z", "undo", "Undo", "Undo the last edit", True),
+    Command("r,ctrl+y", "redo", "Redo", "Redo the edit just undone"),
+    Command("g", "next_plot", "Plot", "Switch the plot (fraction vs pH, log C vs pH)", True),
+    Command("a", "plot_scope", "All/one", "Plot all systems or only the selected ingredient's"),
+    Command("w", "notices", "Notices", "Explain the current warnings and cautions"),
+    Command("s,ctrl+s", "save", "Save", "Save the mixture as a preset", True),
+    Command("o,ctrl+o", "open", "Open", "Open a shipped or saved preset", True),
+    Command("q", "quit", "Quit", "Quit (asks first if the mixture has unsaved changes)", True),
+)
+
+
+def _bindings() -> list[Binding]:
+    return [Binding(c.key, c.action, c.label, show=c.footer, key_display=c.key_display, tooltip=c.help,
+                    id=c.action.split("(")[0].replace("_", "-"))
+            for c in COMMANDS if c.key]
+
+
+class ExplorerApp(App[int]):
+    """The live explorer of one mixture."""
+
+    CSS_PATH = "app.tcss"
+    TITLE = "protomix"
+    BINDINGS = _bindings()
+
+    mixture: reactive[chem.Mixture | None] = reactive(None, init=False)
+    """The mixture in the flask. Replaced by each edit, never mutated."""
+    result: reactive[chem.Equilibrium | None] = reactive(None, init=False)
+    """The solved state of :attr:`mixture` (or of its predecessor while a solve runs)."""
+    pinned: reactive[chem.Equilibrium | None] = reactive(None, init=False)
+    """The state changes are shown against, or None."""
+    plot_kind: reactive[str] = reactive(PLOT_KINDS[0].id, init=False)
+    """Id of the plot on display."""
+    plot_all: reactive[bool] = reactive(True, init=False)
+    """Plot every system (True) or only the selected ingredient's (False)."""
+
+    def __init__(self, mixture: chem.Mixture, *, source: str = "", preset_name: str = "") -> None:
+        """Create the explorer.
+
+        Args:
+            mixture: What is in the flask at the start.
+            source: Where it came from, for the title bar (e.g. a file name).
+            preset_name: Name offered when saving (a user preset's name, or empty).
+        """
+        super().__init__()
+        self.register_theme(NIGHT)
+        self.register_theme(DAY)
+        self.theme = NIGHT.name
+        self.library = chem.load_library()
+        self._start = mixture
+        self._clean = mixture
+        self._source = source
+        self._preset_name = preset_name
+        self._undo: list[tuple[chem.Mixture, str]] = []
+        self._redo: list[tuple[chem.Mixture, str]] = []
+        self._generation = 0
+        self._selected = 0
+        self._autosave_on = False
+        self._utf8 = locale_is_utf8()
+
+    # -- layout ------------------------------------------------------------------------------
+    def compose(self) -> ComposeResult:
+        yield TitleBar(id="title-bar")
+        with Horizontal(id="upper"):
+            yield FlaskList(id="flask").data_bind(ExplorerApp.mixture)
+            yield Readout(id="readout").data_bind(ExplorerApp.result, ExplorerApp.pinned)
+        with Horizontal(id="lower"):
+            yield SpeciesTable(id="species").data_bind(ExplorerApp.result, ExplorerApp.pinned)
+            yield PlotArea(id="chart")
+        yield NoticeBar(id="notices").data_bind(ExplorerApp.result)
+        yield Footer(compact=True)
+
+    def on_mount(self) -> None:
+        self.query_one("#flask").border_title = "Flask"
+        self.query_one("#readout").border_title = "Readout"
+        self.query_one("#species").border_title = "Species"
+        self.theme_changed_signal.subscribe(self, lambda _theme: self._recompute())
+        self.mixture = self._start
+        self.query_one(FlaskList).focus()
+        self._offer_restore()
+
+    def on_resize(self) -> None:
+        main = self.screen_stack[0]
+        main.set_class(self.size.width >= 110, "-wide")
+        main.set_class(self.size.height >= 34, "-tall")
+
+    # -- state -------------------------------------------------------------------------------
+    @property
+    def dirty(self) -> bool:
+        """The mixture differs from what was opened or last saved."""
+        return self.mixture != self._clean
+
+    def watch_mixture(self, mixture: chem.Mixture) -> None:
+        bar = self.query_one(TitleBar)
+        bar.heading = mixture.title
+        bar.source = self._source
+        bar.dirty = self.dirty
+        self._recompute()
+        if self._autosave_on:
+            self._autosave(mixture)
+        self.refresh_bindings()
+
+    def watch_pinned(self, pinned: chem.Equilibrium | None) -> None:
+        self.query_one(TitleBar).pinned = pinned is not None
+
+    def watch_plot_kind(self) -> None:
+        self._recompute()
+
+    def watch_plot_all(self) -> None:
+        self._recompute()
+
+    def commit(self, mixture: chem.Mixture, what: str) -> None:
+        """Make ``mixture`` current as an undoable edit described by ``what``."""
+        if mixture == self.mixture:
+            return
+        self._undo.append((self.mixture, what))
+        del self._undo[:-HISTORY_LIMIT]
+        self._redo.clear()
+        self.mixture = mixture
+
+    @property
+    def selected(self) -> chem.Ingredient | None:
+        """The ingredient under the flask cursor, if any."""
+        ingredients = self.mixture.ingredients if self.mixture else ()
+        return ingredients[self._selected] if 0 <= self._selected < len(ingredients) else None
+
+    # -- solving and plotting ------------------------------------------------------------------
+    def _plot_request(self) -> PlotRequest | None:
+        chart = self.query_one(PlotArea)
+        size = chart.content_size
+        if not size.width or not size.height:
+            return None
+        system = None
+        if not self.plot_all and self.selected is not None and self.selected.reagent.system is not None:
+            system = self.selected.reagent.system.name
+        style = PlotStyle.for_terminal(dark=self.current_theme.dark, color=not self.no_color, utf8=self._utf8)
+        return PlotRequest(self.plot_kind, size.width, size.height, system, style)
+
+    def _plot_title(self, request: PlotRequest) -> str:
+        return f"{plot_kind(request.kind).title} · {request.system or 'all systems'}"
+
+    def _recompute(self) -> None:
+        """Ask for a fresh solve (unless the current result is for this mixture) and plot."""
+        if self.mixture is None:
+            return
+        self._generation += 1
+        known = self.result if self.result is not None and self.result.mixture == self.mixture else None
+        self._compute(self._generation, self.mixture, known, self._plot_request())
+
+    @work(thread=True, exclusive=True, group="compute", exit_on_error=False, description="solve and plot")
+    def _compute(self, generation: int, mixture: chem.Mixture, known: chem.Equilibrium | None,
+                 request: PlotRequest | None) -> None:
+        worker = get_current_worker()
+        result = known if known is not None else chem.solve(mixture)
+        if worker.is_cancelled:
+            return
+        if known is None:
+            self.post_message(Solved(generation, result))
+        if request is None:
+            return
+        image = build_plot(result, request)
+        if not worker.is_cancelled:
+            self.post_message(Plotted(generation, image, self._plot_title(request)))
+
+    @on(Solved)
+    def _show_result(self, message: Solved) -> None:
+        if message.generation == self._generation:
+            self.result = message.result
+            self.refresh_bindings()
+
+    @on(Plotted)
+    def _show_plot(self, message: Plotted) -> None:
+        if message.generation == self._generation:
+            self.query_one(PlotArea).show(message.image, message.title)
+
+    @on(PlotArea.Resized)
+    def _plot_resized(self) -> None:
+        self._recompute()
+
+    @on(FlaskList.Selected)
+    def _selection_moved(self, message: FlaskList.Selected) -> None:
+        self._selected = message.index
+        if not self.plot_all:
+            self._recompute()
+        self.refresh_bindings()
+
+    @on(Worker.StateChanged)
+    def _worker_failed(self, event: Worker.StateChanged) -> None:
+        if event.state == WorkerState.ERROR:
+            error = event.worker.error
+            self.notify(f"{event.worker.description} failed: {type(error).__name__}: {error}",
+                        title="Background task failed", severity="error", timeout=8)
+
+    # -- autosave and restore ------------------------------------------------------------------
+    @work(thread=True, exclusive=True, group="autosave", exit_on_error=False, description="autosave")
+    def _autosave(self, mixture: chem.Mixture) -> None:
+        storage.write_autosave(mixture)
+
+    def _offer_restore(self) -> None:
+        try:
+            saved = storage.read_autosave()
+        except chem.ChemError as exc:
+            self.notify(f"The autosaved session cannot be read and was set aside: {exc}", severity="warning")
+            storage.clear_autosave()
+            saved = None
+        if saved is None or saved == self.mixture:
+            self._autosave_on = True
+            return
+        from tui.screens.choice import Choice
+
+        n = len(saved.ingredients)
+        what = f"'{saved.title}'" if saved.title else "an untitled mixture"
+        question = (f"The last session ended without quitting: {what} with {n} "
+                    f"ingredient{'s' * (n != 1)} at {saved.temperature_c:g} °C was autosaved. Restore it?")
+
+        def answer(restore: bool | None) -> None:
+            if restore:
+                self._source = "restored session"
+                self.commit(saved, "restore the autosaved session")
+            else:
+                storage.clear_autosave()
+            self._autosave_on = True
+
+        self.push_screen(Choice(question, [("y", "restore it", True), ("n", "discard it", False)],
+                                on_escape=False), answer)
+
+    # -- actions -----------------------------------------------------------------------------
+    def check_action(self, action: str, parameters: tuple[object, ...]) -> bool | None:
+        ours = {c.action.split("(")[0] for c in COMMANDS}
+        if action not in ours:
+            return True
+        if self.screen is not self.screen_stack[0]:
+            return False
+        if action in ("remove", "nudge", "edit_amount"):
+            return self.selected is not None or None
+        if action == "undo":
+            return bool(self._undo) or None
+        if action == "redo":
+            return bool(self._redo) or None
+        if action in ("pin", "notices"):
+            return self.result is not None or None
+        return True
+
+    def get_system_commands(self, screen: Screen) -> Iterable[SystemCommand]:
+        yield from super().get_system_commands(screen)
+        for c in COMMANDS:
+            key = c.key_display or c.key.split(",")[0]
+            yield SystemCommand(c.label if c.action != "quit" else "Quit protomix",
+                                f"{c.help}" + (f"  [{key}]" if key else ""),
+                                lambda action=c.action: self.run_action(action))
+
+    def action_help(self) -> None:
+        from tui.screens.help_screen import HelpScreen
+
+        self.push_screen(HelpScreen())
+
+    def action_add(self) -> None:
+        from tui.screens.finder import IngredientFinder
+
+        def add(ingredient: chem.Ingredient | None) -> None:
+            if ingredient is not None:
+                self.commit(self.mixture.with_ingredient(ingredient), f"add {ingredient.reagent.name}")
+                self.query_one(FlaskList).select(-1)
+
+        self.push_screen(IngredientFinder(self.library), add)
+
+    def action_edit_amount(self) -> None:
+        flask = self.query_one(FlaskList)
+        flask.focus()
+        flask.action_edit()
+
+    @on(FlaskList.AmountEntered)
+    def _amount_entered(self, message: FlaskList.AmountEntered) -> None:
+        ingredient = self.mixture.ingredients[message.index]
+        self._replace(message.index, ingredient, message.conc, message.text,
+                      f"{ingredient.reagent.name} to {message.text}")
+
+    def _replace(self, index: int, ingredient: chem.Ingredient, conc: float, text: str | None, what: str) -> None:
+        try:
+            changed = ingredient.with_conc(conc, text)
+        except chem.ChemError as exc:
+            self.notify(str(exc), title="Amount not changed", severity="warning")
+            return
+        self.commit(self.mixture.with_replaced(index, changed), what)
+
+    def action_remove(self) -> None:
+        ingredient = self.selected
+        if ingredient is not None:
+            self.commit(self.mixture.without(self._selected), f"remove {ingredient.reagent.name}")
+
+    def action_nudge(self, direction: int, fine: int) -> None:
+        ingredient = self.selected
+        if ingredient is None:
+            return
+        factor = NUDGE_FACTORS[1 if fine else 0] ** direction
+        self._replace(self._selected, ingredient, ingredient.conc * factor, None,
+                      f"{'raise' if direction > 0 else 'lower'} {ingredient.reagent.name}")
+
+    def action_temperature(self, step: int) -> None:
+        try:
+            mixture = self.mixture.with_temperature(self.mixture.temperature_c + step * TEMPERATURE_STEP)
+        except chem.ChemError as exc:
+            self.notify(str(exc), title="Temperature not changed", severity="warning")
+            return
+        self.commit(mixture, f"temperature to {mixture.temperature_c:g} °C")
+
+    def action_cycle_model(self) -> None:
+        model = MODELS[(MODELS.index(self.mixture.activity) + 1) % len(MODELS)]
+        self.commit(self.mixture.with_activity(model), f"activity model {model}")
+        self.notify(f"activity model: {model}", timeout=2)
+
+    def action_custom(self) -> None:
+        from tui.screens.custom_species import CustomSpeciesForm
+
+        taken = {i.reagent.name.casefold() for i in self.mixture.ingredients if i.reagent.custom}
+
+        def add(ingredient: chem.Ingredient | None) -> None:
+            if ingredient is not None:
+                self.commit(self.mixture.with_ingredient(ingredient), f"add {ingredient.reagent.name}")
+                self.query_one(FlaskList).select(-1)
+
+        self.push_screen(CustomSpeciesForm(self.library, taken), add)
+
+    def action_pin(self) -> None:
+        if self.pinned is not None:
+            self.pinned = None
+            self.notify("unpinned", timeout=2)
+        elif self.result is not None:
+            self.pinned = self.result
+            self.notify(f"pinned at pH {self.result.pH:.3f}; changes are now shown against it", timeout=3)
+
+    def action_undo(self) -> None:
+        self._step(self._undo, self._redo, "undone")
+
+    def action_redo(self) -> None:
+        self._step(self._redo, self._undo, "redone")
+
+    def _step(self, source: list, target: list, verb: str) -> None:
+        if not source:
+            return
+        mixture, what = source.pop()
+        target.append((self.mixture, what))
+        self.mixture = mixture
+        self.notify(f"{verb}: {what}", timeout=2)
+
+    def action_next_plot(self) -> None:
+        ids = [k.id for k in PLOT_KINDS]
+        self.plot_kind = ids[(ids.index(self.plot_kind) + 1) % len(ids)]
+
+    def action_plot_scope(self) -> None:
+        self.plot_all = not self.plot_all
+
+    def action_notices(self) -> None:
+        from tui.screens.notice_details import NoticeDetails
+
+        if self.result is not None:
+            self.push_screen(NoticeDetails(self.result))
+
+    def action_save(self, then_quit: bool = False) -> None:
+        from tui.screens.save_preset import SavePreset, SaveRequest
+
+        def save(request: SaveRequest | None) -> None:
+            if request is not None:
+                mixture = self.mixture
+                if request.title != mixture.title:
+                    mixture = replace(mixture, title=request.title)
+                    self.commit(mixture, "title")
+                self._save(mixture, request.name, request.overwrite, then_quit)
+
+        self.push_screen(SavePreset(self._preset_name, self.mixture.title), save)
+
+    @work(thread=True, exclusive=True, group="save", exit_on_error=False, description="save")
+    def _save(self, mixture: chem.Mixture, name: str, overwrite: bool, then_quit: bool) -> None:
+        try:
+            path = storage.save_user_preset(mixture, name, overwrite=overwrite)
+        except (chem.ChemError, storage.StorageError) as exc:
+            self.call_from_thread(self.notify, str(exc), title="Not saved", severity="error", timeout=8)
+            return
+        self.call_from_thread(self._saved, mixture, name, path, then_quit)
+
+    def _saved(self, mixture: chem.Mixture, name: str, path: Path, then_quit: bool) -> None:
+        self._clean = mixture
+        self._preset_name = name
+        self._source = path.name
+        self.query_one(TitleBar).source = path.name
+        self.query_one(TitleBar).dirty = self.dirty
+        self.notify(f"saved to {path}", timeout=4)
+        if then_quit:
+            self.call_later(self._leave)
+
+    def action_open(self) -> None:
+        from tui.screens.preset_picker import PresetPicker
+
+        def open_(entry: storage.PresetEntry | None) -> None:
+            if entry is None:
+                return
+            try:
+                mixture = chem.load_preset(entry.path)
+            except chem.ChemError as exc:
+                self.notify(str(exc), title="Preset not opened", severity="error", timeout=8)
+                return
+            self._source = entry.path.name
+            self._preset_name = "" if entry.shipped else entry.name
+            self._clean = mixture
+            self.commit(mixture, f"open {entry.path.name}")
+            self.query_one(FlaskList).select(0)
+
+        self.push_screen(PresetPicker(storage.list_presets()), open_)
+
+    async def action_quit(self) -> None:
+        if not self.dirty:
+            await self._leave()
+            return
+        from tui.screens.choice import Choice
+
+        def answer(choice: str | None) -> None:
+            if choice == "save":
+                self.action_save(then_quit=True)
+            elif choice == "quit":
+                self.call_later(self._leave)
+
+        self.push_screen(Choice("The mixture has changes that are not saved as a preset.",
+                                [("s", "save first", "save"), ("d", "discard and quit", "quit")],
+                                on_escape=None), answer)
+
+    async def _leave(self) -> None:
+        for worker in self.workers:
+            if worker.group == "autosave":
+                await worker.wait()
+        storage.clear_autosave()
+        self.exit(0)
+
+
+def run_explorer(path: str | None) -> int:
+    """Open the explorer on the preset at ``path`` (None: the built-in demo mixture).
+
+    Returns the exit status: 0 after a normal quit, 2 when the preset cannot be read
+    (after printing a one-line error).
+    """
+    try:
+        if path is None:
+            mixture, source, name = chem.demo_mixture(), "built-in demo", ""
+        else:
+            mixture, source = chem.load_preset(path), Path(path).name
+            user_dir = storage.presets_dir().resolve()
+            name = Path(path).stem if Path(path).resolve().parent == user_dir else ""
+    except chem.ChemError as exc:
+        print(f"protomix: error: {exc}", file=sys.stderr)
+        return 2
+    return ExplorerApp(mixture, source=source, preset_name=name).run() or 0

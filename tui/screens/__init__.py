@@ -1,0 +1,1 @@
+"""Modal screens of the explorer: finder, forms, pickers, prompts and help."""

@@ -1,0 +1,60 @@
+"""Details of the current warnings and cautions, each with what it means for the numbers."""
+
+from __future__ import annotations
+
+from textual.app import ComposeResult
+from textual.binding import Binding
+from textual.containers import Vertical, VerticalScroll
+from textual.content import Content
+from textual.screen import ModalScreen
+from textual.widgets import Label, Static
+
+import chem
+
+#: What each notice code means for the user, by code. Codes not listed get a general note.
+MEANING = {
+    "not-converged": "The solver stopped before the charge balance was met. The pH and every species "
+                     "shown are unreliable; change the mixture slightly or report the case.",
+    "ionic-strength-high": "Activity coefficients come from a model meant for more dilute solutions. "
+                           "The pH and the activity-corrected numbers are rough; try another model (m) "
+                           "and compare, or treat the result as a trend.",
+    "no-temperature-data": "This system has no reaction enthalpy in the library, so its constants are "
+                           "not corrected for temperature. Results away from 25 °C carry that error.",
+    "temperature-out-of-range": "The temperature lies outside the range the system's data were measured "
+                                "over; its constants are extrapolated.",
+    "chlorine-release": "Safety: acidified hypochlorite gives off chlorine gas.",
+    "toxic-gas": "Safety: below this pKa the volatile, toxic acid form dominates and can escape.",
+    "ammonia-gas": "Safety: at this pH and amount, ammonia gas escapes from the solution.",
+    "chloramine": "Safety: hypochlorite and ammonia together form chloramines.",
+    "corrosive-acid": "Safety: strongly acidic; corrosive to skin, eyes and many materials.",
+    "corrosive-base": "Safety: strongly basic; corrosive to skin and eyes.",
+}
+GENERAL = "See the message above; it names what the result depends on."
+
+
+class NoticeDetails(ModalScreen[None]):
+    """Every caution and warning of a result with its code, message and meaning."""
+
+    BINDINGS = [Binding("escape,w,q", "close", "Close")]
+
+    def __init__(self, result: chem.Equilibrium) -> None:
+        super().__init__()
+        self.result = result
+
+    def compose(self) -> ComposeResult:
+        eq = self.result
+        with Vertical(classes="dialog notices"):
+            yield Label("Warnings and cautions", classes="dialog-heading")
+            with VerticalScroll(can_focus=False):
+                if not eq.cautions and not eq.warnings:
+                    yield Static("None for this mixture. The numbers still are model estimates.")
+                for kind, notices, style in (("CAUTION", eq.cautions, "bold $error"),
+                                             ("warning", eq.warnings, "bold $warning")):
+                    for notice in notices:
+                        yield Static(Content.assemble(
+                            (f"{kind} ", style), (f"[{notice.code}]", "dim"), "\n", notice.message, "\n",
+                            (MEANING.get(notice.code, GENERAL), "italic")), classes="notice")
+            yield Label("esc close", classes="dialog-hint")
+
+    def action_close(self) -> None:
+        self.dismiss(None)

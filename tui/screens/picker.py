@@ -1,0 +1,93 @@
+"""A modal list filtered as you type: the shared shape of the ingredient finder and the preset picker."""
+
+from __future__ import annotations
+
+from typing import Generic, TypeVar
+
+from textual import on
+from textual.app import ComposeResult
+from textual.binding import Binding
+from textual.containers import Vertical
+from textual.screen import ModalScreen
+from textual.widgets import Input, Label, OptionList
+from textual.widgets.option_list import Option
+
+T = TypeVar("T")
+
+
+class PickerScreen(ModalScreen[T], Generic[T]):
+    """A filter entry over an option list; up/down move through the list while you type.
+
+    Subclasses provide :meth:`options` (what matches a query) and :meth:`picked`
+    (what to do with the chosen option id).
+    """
+
+    BINDINGS = [
+        Binding("escape", "cancel", "Close", tooltip="Close without choosing"),
+        Binding("down", "move(1)", "Next", show=False),
+        Binding("up", "move(-1)", "Previous", show=False),
+        Binding("pagedown", "move(8)", "Page down", show=False),
+        Binding("pageup", "move(-8)", "Page up", show=False),
+    ]
+
+    heading = ""
+    placeholder = "type to filter"
+
+    def compose(self) -> ComposeResult:
+        with Vertical(classes="dialog picker"):
+            yield Label(self.heading, classes="dialog-heading")
+            yield Input(placeholder=self.placeholder, id="picker-query")
+            yield OptionList(id="picker-list")
+            yield Label("", id="picker-count", classes="dialog-hint")
+            yield from self.compose_extra()
+
+    def compose_extra(self) -> ComposeResult:
+        """Widgets under the list (none by default)."""
+        yield from ()
+
+    def on_mount(self) -> None:
+        self.refill("")
+        self.query_one("#picker-query", Input).focus()
+
+    def options(self, query: str) -> list[Option]:
+        """The options matching ``query``, best first."""
+        raise NotImplementedError
+
+    def picked(self, option_id: str) -> None:
+        """Act on the chosen option."""
+        raise NotImplementedError
+
+    def refill(self, query: str) -> None:
+        listing = self.query_one("#picker-list", OptionList)
+        found = self.options(query)
+        listing.set_options(found)
+        if found:
+            listing.highlighted = 0
+        self.query_one("#picker-count", Label).update(
+            f"{len(found)} match{'es' * (len(found) != 1)} · ↑↓ choose · enter pick · esc close")
+
+    @on(Input.Changed, "#picker-query")
+    def _filter(self, event: Input.Changed) -> None:
+        self.refill(event.value)
+
+    @on(Input.Submitted, "#picker-query")
+    def _pick_highlighted(self) -> None:
+        listing = self.query_one("#picker-list", OptionList)
+        if listing.highlighted is not None:
+            option = listing.get_option_at_index(listing.highlighted)
+            if not option.disabled and option.id is not None:
+                self.picked(option.id)
+
+    @on(OptionList.OptionSelected, "#picker-list")
+    def _pick_selected(self, event: OptionList.OptionSelected) -> None:
+        if event.option.id is not None:
+            self.picked(event.option.id)
+
+    def action_move(self, step: int) -> None:
+        listing = self.query_one("#picker-list", OptionList)
+        if listing.option_count:
+            current = listing.highlighted if listing.highlighted is not None else 0
+            listing.highlighted = max(0, min(current + step, listing.option_count - 1))
+
+    def action_cancel(self) -> None:
+        self.dismiss(None)

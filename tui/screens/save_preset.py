@@ -1,0 +1,83 @@
+"""The save form: a name for the preset file and a title for the mixture."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+from textual import on
+from textual.app import ComposeResult
+from textual.binding import Binding
+from textual.containers import Vertical
+from textual.screen import ModalScreen
+from textual.widgets import Input, Label
+
+from tui import storage
+from tui.screens.choice import Choice
+
+
+@dataclass(frozen=True)
+class SaveRequest:
+    """Where and how to save: the preset name, the mixture title, and whether replacing is confirmed."""
+
+    name: str
+    title: str
+    overwrite: bool
+
+
+class SavePreset(ModalScreen["SaveRequest | None"]):
+    """Asks for a preset name (and title); confirms before replacing an existing preset."""
+
+    BINDINGS = [Binding("escape", "cancel", "Close", tooltip="Close without saving")]
+
+    def __init__(self, name: str, title: str) -> None:
+        super().__init__()
+        self.initial_name = name
+        self.initial_title = title
+
+    def compose(self) -> ComposeResult:
+        with Vertical(classes="dialog"):
+            yield Label("Save the mixture as a preset", classes="dialog-heading")
+            yield Label("name (file in your preset folder)", classes="dialog-hint")
+            yield Input(self.initial_name, placeholder="e.g. rinse buffer 37C", id="save-name")
+            yield Label("title (shown in the preset list)", classes="dialog-hint")
+            yield Input(self.initial_title, placeholder="what this mixture is for", id="save-title")
+            yield Label("", id="save-error", classes="dialog-error")
+            yield Label(f"folder: {storage.presets_dir()}", classes="dialog-hint")
+            yield Label("enter save · tab next field · esc close", classes="dialog-hint")
+
+    def on_mount(self) -> None:
+        self.query_one("#save-name", Input).focus()
+
+    @on(Input.Changed, "#save-name")
+    def _check_name(self, event: Input.Changed) -> None:
+        try:
+            storage.preset_path(event.value)
+        except storage.StorageError as exc:
+            self.query_one("#save-error", Label).update(str(exc))
+        else:
+            self.query_one("#save-error", Label).update("")
+
+    @on(Input.Submitted)
+    def _submit(self) -> None:
+        name = self.query_one("#save-name", Input).value.strip()
+        title = self.query_one("#save-title", Input).value.strip()
+        try:
+            path = storage.preset_path(name)
+        except storage.StorageError as exc:
+            self.query_one("#save-error", Label).update(str(exc))
+            self.query_one("#save-name", Input).focus()
+            return
+        if not path.exists():
+            self.dismiss(SaveRequest(name, title, overwrite=False))
+            return
+
+        def replace(answer: bool | None) -> None:
+            if answer:
+                self.dismiss(SaveRequest(name, title, overwrite=True))
+
+        self.app.push_screen(Choice(f"A preset called '{name}' already exists. Replace it?",
+                                    [("y", "replace it", True), ("n", "keep it", False)], on_escape=False),
+                             replace)
+
+    def action_cancel(self) -> None:
+        self.dismiss(None)
