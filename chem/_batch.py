@@ -5,9 +5,11 @@ batch axis P on every array:
 
 1. A two-dimensional Newton iteration on (x, I), x = log10 a(H+), with the
    analytic Jacobian of the charge balance F(x, I) and of the ionic-strength
-   residual G(x, I) = I_computed - I.  Species are stored flat (no padding)
-   and the per-system moments come from one matrix product, so an iteration
-   costs a handful of array operations however many systems there are.
+   residual G(x, I) = I_computed - I.  Systems are grouped by their number
+   of species and laid out (species, system, point), so the per-system
+   moments are sums over the first axis: no padding, one exponential per
+   species and point, and a handful of array operations per iteration
+   however many systems there are.
 2. Points that Newton has not settled (rare: extreme activity corrections)
    go to the safeguarded solve: at fixed activity coefficients the balance
    is strictly increasing in x, so Newton kept inside a bracket (bisection
@@ -119,30 +121,29 @@ class _Constants:
     def take(self, idx) -> "_Constants":
         return _Constants(self.model, self.pkw[idx], self.a[idx], self.b[idx])
 
-    def systems(self, ionic, sizes, point_axis: int):
-        """A·D and ln10·A·D' of the system species, shaped to broadcast against ``sizes``.
+    def terms(self, ionic, sizes, point_axis: int):
+        """Activity terms at ionic strength ``ionic`` (P,).
 
-        ``point_axis`` is where the point axis goes: 0 gives (P, 1) or (P, S)
-        for ``sizes`` shaped (S,); 1 gives (1, P) or (S, P) for ``sizes`` (S, 1).
+        Returns ``(ad_s, dd_s, ad_h, dd_h, ad_oh, dd_oh)``: A·D and ln10·A·dD/dI
+        of the system species, shaped to broadcast against ``sizes``, then of
+        H+ and of OH- (each (P,)).  ``point_axis`` places the point axis: 0
+        gives (P, 1) or (P, S) for ``sizes`` shaped (S,); 1 gives (1, P) or
+        (S, P) for ``sizes`` shaped (S, 1).
         """
         n = ionic.shape[0]
         shape = (n, 1) if point_axis == 0 else (1, n)
         if self.model == "ideal":
-            zero = np.zeros(shape)
-            return zero, zero
-        a, b, i = (v.reshape(shape) for v in (self.a, self.b, ionic))
-        d, dp = _d_terms(self.model, i, b, sizes)
-        return a * d, _LN10 * a * dp
-
-    def water(self, ionic):
-        """A·D and ln10·A·D' for H+ and for OH- (each (P,))."""
-        if self.model == "ideal":
-            zero = np.zeros(ionic.shape)
-            return zero, zero, zero, zero
+            zero, zero_p = np.zeros(shape), np.zeros(n)
+            return zero, zero, zero_p, zero_p, zero_p, zero_p
+        a, al = self.a, _LN10 * self.a
+        if self.model == "davies":      # one D for every ion
+            d, dp = _d_terms("davies", ionic, None, None)
+            ad, add = a * d, al * dp
+            return ad.reshape(shape), add.reshape(shape), ad, add, ad, add
+        d, dp = _d_terms(self.model, ionic.reshape(shape), self.b.reshape(shape), sizes)
         d_h, dp_h = _d_terms(self.model, ionic, self.b, SIZE_H)
         d_oh, dp_oh = _d_terms(self.model, ionic, self.b, SIZE_OH)
-        a, al = self.a, _LN10 * self.a
-        return a * d_h, al * dp_h, a * d_oh, al * dp_oh
+        return a.reshape(shape) * d, al.reshape(shape) * dp, a * d_h, al * dp_h, a * d_oh, al * dp_oh
 
 
 # --------------------------------------------------------------------------
@@ -181,8 +182,7 @@ def _joint(groups: _Groups, cst: _Constants, lbs, tot_t, q, i_s, x, ionic):
     groups' order.  Raw moments of the bound-proton count j give the moments
     of z = c + j.
     """
-    ad_s, dd_s = cst.systems(ionic, groups.sizes, point_axis=1)
-    ad_h, dh, ad_oh, doh = cst.water(ionic)
+    ad_s, dd_s, ad_h, dh, ad_oh, doh = cst.terms(ionic, groups.sizes, point_axis=1)
     xl = x * _LN10
     hc = np.exp(_LN10 * (x + ad_h))
     ohc = np.exp(_LN10 * (-cst.pkw - x + ad_oh))
@@ -229,7 +229,8 @@ def _joint(groups: _Groups, cst: _Constants, lbs, tot_t, q, i_s, x, ionic):
 
 def solve_batch(lay: _Layout, log_beta: np.ndarray, totals: np.ndarray, q_strong: np.ndarray,
                 i_strong: np.ndarray, t_c: np.ndarray, model: str, *, tol: float = 1e-13,
-                max_iter: int = 200, x0: np.ndarray | None = None) -> _Batch:
+                max_iter: int = 200, x0: np.ndarray | None = None,
+                i0: np.ndarray | None = None) -> _Batch:
     """Solve P independent acid–base mixtures sharing one layout.
 
     Parameters
@@ -254,6 +255,8 @@ def solve_batch(lay: _Layout, log_beta: np.ndarray, totals: np.ndarray, q_strong
         Cap on iterations of the safeguarded stage.
     x0 : ndarray, optional
         Starting values of x (default -7).
+    i0 : ndarray, optional
+        Starting values of the ionic strength, mol/L (default: the strong ions').
 
     Returns
     -------
@@ -272,7 +275,7 @@ def solve_batch(lay: _Layout, log_beta: np.ndarray, totals: np.ndarray, q_strong
     i_cap = 2.0 * (i_strong + totals @ z2_max) + 1.0
 
     x = np.full(p, -7.0) if x0 is None else np.clip(np.asarray(x0, dtype=float) * np.ones(p), _X_LO, _X_HI)
-    ionic = i_strong.copy()
+    ionic = i_strong.copy() if i0 is None else np.maximum(np.asarray(i0, dtype=float) * np.ones(p), 0.0)
     converged = np.zeros(p, dtype=bool)
     iterations = 0
 
@@ -301,8 +304,10 @@ def solve_batch(lay: _Layout, log_beta: np.ndarray, totals: np.ndarray, q_strong
         dx = np.clip(np.where(ok, dx, 0.0), -2.0, 2.0)
         d_i = np.where(ok, d_i, 0.0)
         x_new = np.clip(xa - dx, _X_LO, _X_HI)
+        # a Newton step that would cut I below a tenth is replaced by the
+        # fixed-point value (the ionic strength the current species make)
         i_new = ia - d_i
-        i_new = np.where(i_new > 0.1 * ia, i_new, np.where(ia > 0, 0.1 * ia, i_s))
+        i_new = np.where(i_new > 0.1 * ia, i_new, np.maximum(0.1 * ia, ia + g))
         i_new = np.minimum(i_new, cap)
         x[act] = x_new
         ionic[act] = i_new
@@ -331,8 +336,7 @@ def solve_batch(lay: _Layout, log_beta: np.ndarray, totals: np.ndarray, q_strong
 def _padded(lay: _Layout, cst: _Constants, log_beta, totals, q, x, ionic) -> dict:
     """Everything at (x, I) on the padded layout, with shifted exponents and centred
     moments (stable for any x; used by the safeguarded stage and for the final results)."""
-    ad_s, dd_s = cst.systems(ionic, lay.size[:, 0], point_axis=0)
-    ad_h, dh, ad_oh, doh = cst.water(ionic)
+    ad_s, dd_s, ad_h, dh, ad_oh, doh = cst.terms(ionic, lay.size[:, 0], point_axis=0)
     z, jj = lay.z, lay.j
     z2 = z * z
     lg = -ad_s[:, :, None] * z2
@@ -421,3 +425,19 @@ def _final(lay, consts, log_beta, totals, q, i_s, x, ionic, converged, iteration
                   residual=ev["f"], scale=scale, converged=converged, iterations=iterations,
                   h=hc, oh=ohc, zbar=ev["zbar"], z2bar=ev["z2bar"], fx=ev["fx"], fi=ev["fi"],
                   gx=ev["gx"], gi=ev["gi"])
+
+
+def evaluate_at(lay: _Layout, log_beta: np.ndarray, totals: np.ndarray, q_strong: np.ndarray,
+                t_c: np.ndarray, model: str, x: np.ndarray, ionic: np.ndarray) -> dict:
+    """Charge balance, ionic-strength terms and their partial derivatives at given (x, I).
+
+    For curves that fix the pH and solve for something else (buffer capacity).
+    Returns a dict of (P,) arrays: ``f`` (charge balance, mol/L), ``fx``, ``fi``,
+    ``gx``, ``gi`` (as in :class:`_Batch`), ``ez2`` (sum of C_s·mean z² over the
+    systems), ``hc``/``ohc`` ([H+], [OH-]) and ``alpha`` (P, S, M).
+    """
+    p = log_beta.shape[0]
+    consts = _Constants.at(model, np.broadcast_to(np.asarray(t_c, dtype=float), (p,)))
+    q = np.broadcast_to(np.asarray(q_strong, dtype=float), (p,))
+    return _padded(lay, consts, np.asarray(log_beta, dtype=float), np.asarray(totals, dtype=float), q,
+                   np.asarray(x, dtype=float), np.asarray(ionic, dtype=float))

@@ -31,7 +31,7 @@ from __future__ import annotations
 import math
 import re
 from dataclasses import dataclass, replace
-from typing import Callable, Iterable, Sequence
+from typing import Callable, Iterable, Iterator, Sequence
 
 import numpy as np
 from scipy.optimize import brentq
@@ -68,8 +68,9 @@ _LEVEL_XTOL = 1e-13       # Brent tolerance on the proton level (per system unit
 _SALT_XTOL = 1e-13        # Brent tolerance on the added salt, mol/L
 _CATIONS = {"sodium": "Na+", "potassium": "K+", "lithium": "Li+", "rubidium": "Rb+",
             "cesium": "Cs+", "caesium": "Cs+"}
-_ADDITION = re.compile(r"^\s*(?P<name>.*?\S)\s+(?P<amount>[+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?\s*\S*)\s*$")
-_ADDITION_FIRST = re.compile(r"^\s*(?P<amount>[+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?\s*[^\s\d]\S*)\s+(?P<name>\S.*?)\s*$")
+_NUMBER = r"[+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?"
+_ADDITION = re.compile(rf"^\s*(?P<name>.*?\S)\s+(?P<amount>{_NUMBER}\s*\S*)\s*$")            # "NaCl 150 mM"
+_ADDITION_FIRST = re.compile(rf"^\s*(?P<amount>{_NUMBER}\s*[^\s\d]\S*)\s+(?P<name>\S.*?)\s*$")  # "150 mM NaCl"
 
 
 class RecipeError(ChemError):
@@ -308,7 +309,7 @@ def format_volume(litres: float) -> str:
 
 def _cation_name(text: str, library: Library) -> str:
     key = text.strip().casefold()
-    key = _CATIONS.get(key, key)
+    key = _CATIONS.get(key, key).casefold()
     for ion in library.ions:
         if ion.charge > 0 and ion.name != "H+" and key in (ion.name.casefold(), ion.name.rstrip("+").casefold()):
             return ion.name
@@ -361,7 +362,6 @@ class _Unreachable(Exception):
 class _Plan:
     """One candidate way of writing the recipe: ingredients as a function of the proton level."""
 
-    form: str
     lo: float
     hi: float
     build: Callable[[float], tuple[tuple[Reagent, str, float], ...]]
@@ -418,7 +418,7 @@ def _solve_plan(req: _Request, plan: _Plan) -> tuple[float, float, Mixture, Equi
         extra = 0.0
     else:
         per_unit = 0.5 * sum(ion.charge ** 2 * n for ion, n in req.ionic_salt.counter_ions)
-        level0, eq0 = level_for(0.0)
+        _, eq0 = level_for(0.0)
         if eq0.ionic_strength > req.ionic_target:
             raise RecipeError(f"the buffer alone already has ionic strength {eq0.ionic_strength:.4g} M, "
                               f"above the target {req.ionic_target:.4g} M; lower the total or drop the target")
@@ -470,7 +470,7 @@ def _pair_plans(req: _Request, lib: Library, acid_form, base_form, cation) -> li
             f = min(max((level - nb) / (na - nb), 0.0), 1.0)
             return ((a, "acid form", total * f / a.units), (b, "base form", total * (1.0 - f) / b.units))
 
-        plans.append(_Plan("reagents", nb, na, build, f"{a.name} + {b.name}"))
+        plans.append(_Plan(nb, na, build, f"{a.name} + {b.name}"))
     return plans
 
 
@@ -483,7 +483,8 @@ def _strong_reagents(lib: Library, sign: int, cation: str | None) -> list[Reagen
     return out
 
 
-def _titrant_plans(req: _Request, lib: Library, weighed, titrant, titrant_conc, cation) -> list[_Plan]:
+def _titrant_plans(req: _Request, lib: Library, weighed, titrant, titrant_conc, cation) -> Iterator[_Plan]:
+    """Candidate plans, the form needing least titrant first (lazily: each costs a solve)."""
     forms = [weighed] if weighed is not None else [
         r for r in lib.reagents_of(req.system) if cation is None or _cations(r) <= {cation}]
     if not forms:
@@ -494,7 +495,7 @@ def _titrant_plans(req: _Request, lib: Library, weighed, titrant, titrant_conc, 
                               _is_hydrate(r), _carries_strong(r), order.get(r.name, 0)))
     if titrant is not None and (titrant.system is not None or titrant.strong_acid_equivalents == 0):
         raise RecipeError(f"'{titrant.name}' is not a strong acid or base; a titrant must be one (e.g. HCl or NaOH)")
-    plans = []
+    found = False
     mismatch = None
     total = req.total
     for w in forms:
@@ -521,11 +522,10 @@ def _titrant_plans(req: _Request, lib: Library, weighed, titrant, titrant_conc, 
             return ((w, "weighed form", total / w.units),
                     (t, "titrant", max(total * (level - nw) / eqv, 0.0)))
 
-        plans.append(_Plan("titrant", lo, hi, build,
-                           f"{w.name} with up to the whole volume of {format_molar(titrant_conc)} {t.name}"))
-    if not plans:
+        found = True
+        yield _Plan(lo, hi, build, f"{w.name} with up to the whole volume of {format_molar(titrant_conc)} {t.name}")
+    if not found:
         raise RecipeError(mismatch)
-    return plans
 
 
 def _items(req: _Request, form: str, parts, extra: float, volume: float, titrant_conc: float,
@@ -688,7 +688,11 @@ def design_buffer(system: str | AcidBaseSystem | None, target_pH: float, *, temp
         if isinstance(s, str):
             salt_list.append(parse_addition(s, lib))
         else:
-            r, c = s
+            try:
+                r, c = s
+            except (TypeError, ValueError):
+                raise RecipeError(f"an added salt is a string like 'NaCl 150 mM' or a (reagent, amount) pair, "
+                                  f"not {s!r}") from None
             reagent = _reagent_of(r, lib)
             salt_list.append((reagent, parse_concentration(c, molar_mass=reagent.molar_mass),
                               c if isinstance(c, str) else None))
@@ -718,15 +722,15 @@ def design_buffer(system: str | AcidBaseSystem | None, target_pH: float, *, temp
     for t in checks_t:
         Mixture((), temperature_c=t)                                # one-line error if out of range
 
+    if system is None and (picks["acid"] or picks["base"]) is not None:
+        system = (picks["acid"] or picks["base"]).system
     if system is None:
         for sug in suggest_systems(target_pH, temperature_c, library=lib, activity=activity):
-            if any(r is not None and r.system is not sug.system for r in picks.values()):
-                continue
             try:
                 recipe = design_buffer(sug.system, target_pH, temperature_c=temperature_c, total=total_m,
                                        volume=volume_l, form=form, salts=[(r, c) for r, c, _ in salt_list],
                                        ionic_strength=ionic_target, ionic_salt=salt_for_i,
-                                       acid_form=picks["acid"], base_form=picks["base"], cation=cation_name,
+                                       cation=cation_name,
                                        titrant=titrant, titrant_conc=titrant_conc, stock_conc=stock_conc,
                                        check_temperatures=checks_t, activity=activity, library=lib)
             except RecipeError:
@@ -741,7 +745,7 @@ def design_buffer(system: str | AcidBaseSystem | None, target_pH: float, *, temp
     for role, r in picks.items():
         if r is not None and r.system is not sys_:
             raise RecipeError(f"'{r.name}' is not a form of {sys_.name}")
-    if not lib.reagents_of(sys_) and not sys_.custom:
+    if not lib.reagents_of(sys_):
         raise RecipeError(f"the library has no reagent of {sys_.name} to weigh")
 
     req = _Request(sys_, float(target_pH), float(temperature_c), total_m, activity,
@@ -839,6 +843,8 @@ def suggest_systems(target_pH: float, temperature_c: float = 25.0, *, total=SUGG
         raise RecipeError(f"target pH must be a finite number (got {target_pH!r})")
     Mixture((), temperature_c=temperature_c, activity=activity)
     total_m = _amount(total, parse_concentration, "total buffer concentration")
+    if limit is not None and limit < 1:
+        raise RecipeError(f"the number of systems to list must be at least 1 (got {limit})")
     ranked = []
     for sys_ in lib.systems:
         if sys_.hazard or not lib.reagents_of(sys_):

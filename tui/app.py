@@ -14,7 +14,7 @@ from dataclasses import dataclass, replace
 from pathlib import Path
 from typing import Iterable
 
-from textual import on, work
+from textual import events, on, work
 from textual.app import App, ComposeResult, SystemCommand
 from textual.binding import Binding
 from textual.containers import Horizontal
@@ -93,7 +93,7 @@ COMMANDS: tuple[Command, ...] = (
     Command("w", "notices", "Notices", "Explain the current warnings and cautions"),
     Command("s,ctrl+s", "save", "Save", "Save the mixture as a preset", True),
     Command("o,ctrl+o", "open", "Open", "Open a shipped or saved preset", True),
-    Command("q", "quit", "Quit", "Quit (asks first if the mixture has unsaved changes)", True),
+    Command("q", "quit", "Quit", "Quit (asks first if the mixture has unsaved changes)"),
 )
 
 
@@ -166,10 +166,10 @@ class ExplorerApp(App[int]):
         self.query_one(FlaskList).focus()
         self._offer_restore()
 
-    def on_resize(self) -> None:
+    def on_resize(self, event: events.Resize) -> None:
         main = self.screen_stack[0]
-        main.set_class(self.size.width >= 110, "-wide")
-        main.set_class(self.size.height >= 34, "-tall")
+        main.set_class(event.size.width >= 110, "-wide")
+        main.set_class(event.size.height >= 34, "-tall")
 
     # -- state -------------------------------------------------------------------------------
     @property
@@ -394,7 +394,6 @@ class ExplorerApp(App[int]):
     def action_cycle_model(self) -> None:
         model = MODELS[(MODELS.index(self.mixture.activity) + 1) % len(MODELS)]
         self.commit(self.mixture.with_activity(model), f"activity model {model}")
-        self.notify(f"activity model: {model}", timeout=2)
 
     def action_custom(self) -> None:
         from tui.screens.custom_species import CustomSpeciesForm
@@ -409,12 +408,7 @@ class ExplorerApp(App[int]):
         self.push_screen(CustomSpeciesForm(self.library, taken), add)
 
     def action_pin(self) -> None:
-        if self.pinned is not None:
-            self.pinned = None
-            self.notify("unpinned", timeout=2)
-        elif self.result is not None:
-            self.pinned = self.result
-            self.notify(f"pinned at pH {self.result.pH:.3f}; changes are now shown against it", timeout=3)
+        self.pinned = None if self.pinned is not None else self.result
 
     def action_undo(self) -> None:
         self._step(self._undo, self._redo, "undone")

@@ -85,7 +85,8 @@ def render_recipe(recipe) -> str:
     for tc, ph in recipe.checks:
         out.append(f"  same solution at {tc:g} °C: pH {ph:.3f} ({ph - recipe.target_pH:+.3f})")
     sc = recipe.shortcut
-    out.append(f"Henderson–Hasselbalch shortcut (pKa{sc.step + 1} {sc.pka:g} at 25 °C, concentrations, no activity):")
+    out.append(f"Henderson–Hasselbalch shortcut (pKa{sc.step + 1} {sc.pka:g} at 25 °C, "
+               "concentrations, no activity):")
     if sc.pH is None:
         out.append("  no prediction: the recipe is not a mix of one step's acid and base forms")
     else:

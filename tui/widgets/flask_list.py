@@ -60,6 +60,8 @@ class _FlaskRow(Vertical):
         self.set_class(message is not None, "-error")
         if self.children:
             self.query_one(".flask-error", Label).update(message or "")
+        if message is not None and self.parent is not None:
+            self.call_after_refresh(self.parent.scroll_to_widget, self, animate=False)
 
 
 class FlaskList(VerticalScroll, can_focus=True):
@@ -74,7 +76,7 @@ class FlaskList(VerticalScroll, can_focus=True):
         Binding("down,j", "move(1)", "Next", show=False),
         Binding("home", "move_to(0)", "First", show=False),
         Binding("end", "move_to(-1)", "Last", show=False),
-        Binding("enter,e", "edit", "Edit amount", tooltip="Type a new amount for the selected ingredient",
+        Binding("enter,e", "edit", "Edit", tooltip="Type a new amount for the selected ingredient",
                 id="edit-amount"),
         Binding("escape", "cancel_edit", "Cancel", show=False),
         Binding("right", "app.nudge(1, 0)", "More", show=False),

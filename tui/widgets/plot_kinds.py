@@ -128,9 +128,10 @@ def _legend(labels: Sequence[str], style: PlotStyle, width: int, max_rows: int) 
         entry.append(style.legend_symbol(i), style=_rich_color(style.color(i)))
         entry.append(f" {label}")
         line = lines[-1]
-        need = entry.cell_len + (2 if line.cell_len else 0)
-        if line.cell_len and line.cell_len + need > width:
-            if len(lines) == max_rows:
+        last_row = len(lines) == max_rows
+        room = width - (len(f"  +{len(labels)} more") if last_row and i < len(labels) - 1 else 0)
+        if line.cell_len and line.cell_len + 2 + entry.cell_len > room:
+            if last_row:
                 line.append(f"  +{len(labels) - i} more", style="dim")
                 break
             lines.append(Text())
@@ -185,7 +186,7 @@ def draw(x: np.ndarray, curves: Sequence[tuple[str, np.ndarray]], ph: float, req
         right = ph > lo + 0.7 * (hi - lo)
         fig.text(f"pH {ph:.2f}", x=ph - 0.15 if right else ph + 0.15, y=ylim[1],
                  color=style.guide, alignment="right" if right else "left")
-    out = fig.build()
+    out = fig.build().rstrip("\n")
     if style.ascii:
         out = out.translate(_BOX_TO_ASCII)
     text = Text.from_ansi(out)

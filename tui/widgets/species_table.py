@@ -16,7 +16,8 @@ _PINNED_COLUMN = "Δlog C"
 
 
 def _num(text: str, style: str = "") -> Text:
-    return Text(text, style=style, justify="right")
+    """A right-aligned number with one space before it (the table has no cell padding, to fit 80 columns)."""
+    return Text(f" {text}", style=style, justify="right")
 
 
 def _log_c(value: float) -> str:
@@ -32,18 +33,19 @@ class SpeciesTable(DataTable):
     """The state changes are measured against, or None."""
 
     def __init__(self, *, id: str | None = None) -> None:
-        super().__init__(id=id, cursor_type="row", zebra_stripes=True)
+        super().__init__(id=id, cursor_type="row", zebra_stripes=True, cell_padding=0)
 
     def on_mount(self) -> None:
         self._set_columns()
 
     def _set_columns(self) -> None:
         self.clear(columns=True)
-        for label in _COLUMNS:
-            self.add_column(label, key=label)
+        self.add_column(_COLUMNS[0], key=_COLUMNS[0])
+        for label in _COLUMNS[1:]:
+            self.add_column(_num(label), key=label)
         if self.pinned is not None:
-            self.add_column(_PINNED_COLUMN, key=_PINNED_COLUMN)
-        self.add_column("system", key="system")
+            self.add_column(_num(_PINNED_COLUMN), key=_PINNED_COLUMN)
+        self.add_column("  system", key="system")
 
     def watch_pinned(self) -> None:
         self._set_columns()
@@ -75,7 +77,7 @@ class SpeciesTable(DataTable):
                     cells.append(_num(signed(sp.log_c - old.log_c, 2), "bold"))
                 else:
                     cells.append(_num("—"))
-            cells.append(Text(sp.system, style="dim"))
+            cells.append(Text(f"  {sp.system}", style="dim"))
             self.add_row(*cells, key=f"{sp.system}/{sp.name}")
         if self.row_count:
             self.move_cursor(row=min(row, self.row_count - 1), animate=False, scroll=False)

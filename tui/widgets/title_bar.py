@@ -8,7 +8,7 @@ from textual.widgets import Static
 
 
 class TitleBar(Static):
-    """``protomix │ <title> │ <source> ● changed │ pinned``."""
+    """``protomix ● changed ◆ pinned <title> │ <source>``, the markers only when they apply."""
 
     heading: reactive[str] = reactive("", init=False)
     """The mixture's title."""
@@ -35,12 +35,12 @@ class TitleBar(Static):
         self._redraw()
 
     def _redraw(self) -> None:
-        parts: list[str | tuple[str, str]] = [(" protomix ", "bold reverse $primary"), " ",
-                                              (self.heading or "untitled mixture", "bold")]
+        parts: list[str | tuple[str, str]] = [(" protomix ", "bold reverse $primary"), " "]
+        if self.dirty:
+            parts += [("● changed", "$warning"), " "]
+        if self.pinned:
+            parts += [("◆ pinned", "bold $accent"), " "]
+        parts += [" ", (self.heading or "untitled mixture", "bold")]
         if self.source:
             parts += ["  │ ", (self.source, "dim")]
-        if self.dirty:
-            parts += ["  ", ("● changed", "$warning")]
-        if self.pinned:
-            parts += ["  ", ("◆ pinned", "bold $accent")]
         self.update(Content.assemble(*parts))

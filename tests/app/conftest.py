@@ -1,0 +1,68 @@
+"""Fixtures for driving the explorer with Pilot, by keys only, away from the user's own files."""
+
+from __future__ import annotations
+
+from contextlib import suppress
+
+import pytest
+from textual.worker import WorkerCancelled
+
+import chem
+
+
+@pytest.fixture(autouse=True)
+def data_dir(tmp_path, monkeypatch):
+    """The explorer's data folder for this test (presets, autosave): a fresh temporary folder."""
+    folder = tmp_path / "protomix-data"
+    monkeypatch.setenv("PROTOMIX_DATA_DIR", str(folder))
+    return folder
+
+
+@pytest.fixture(scope="session")
+def library() -> chem.Library:
+    return chem.load_library()
+
+
+@pytest.fixture
+def acetate_buffer(library) -> chem.Mixture:
+    """Acetic acid and sodium acetate, 50 mM each, 25 °C, Davies."""
+    return chem.Mixture((chem.Ingredient(library.reagent("acetic acid"), 0.05, "50 mM"),
+                         chem.Ingredient(library.reagent("sodium acetate"), 0.05, "50 mM")),
+                        title="acetate test buffer")
+
+
+async def _settle(pilot) -> None:
+    app = pilot.app
+    for _ in range(3):
+        with suppress(WorkerCancelled):
+            await app.workers.wait_for_complete()
+        await pilot.pause()
+
+
+def _screen_lines(app) -> list[str]:
+    # The composited screen, as the terminal would show it (Compositor is private: tests only).
+    return [strip.text for strip in app.screen._compositor.render_strips()]
+
+
+def _text_of(widget) -> str:
+    region = widget.region
+    lines = _screen_lines(widget.app)[region.y:region.bottom]
+    return "\n".join(line[region.x:region.right] for line in lines)
+
+
+@pytest.fixture
+def settle():
+    """``await settle(pilot)``: wait until solving and plotting are done and their messages handled."""
+    return _settle
+
+
+@pytest.fixture
+def text_of():
+    """``text_of(widget)``: what the widget's region of the screen shows, line by line."""
+    return _text_of
+
+
+@pytest.fixture
+def screen_lines():
+    """``screen_lines(app)``: the whole screen as text lines."""
+    return _screen_lines
