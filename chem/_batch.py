@@ -13,8 +13,9 @@ batch axis P on every array:
 2. Points that Newton has not settled (rare: extreme activity corrections)
    go to the safeguarded solve: at fixed activity coefficients the balance
    is strictly increasing in x, so Newton kept inside a bracket (bisection
-   whenever a step leaves it) cannot fail; the ionic strength is iterated
-   around it.
+   whenever a step leaves it) cannot fail; around it, the ionic strength is
+   found by a bracketed root search as well (fixed-point steps while they
+   contract, then regula falsi).
 
 The result also carries the Jacobian at the solution, so derivatives of the
 equilibrium with respect to the amounts (buffer capacity, the slope of a
@@ -295,8 +296,8 @@ def solve_batch(lay: _Layout, log_beta: np.ndarray, totals: np.ndarray, q_strong
                    consts.take(act), i_cap[act])
         _, lbs, tot, q, i_s, cst, cap = sub
         xa, ia = x[act], ionic[act]
-        f, g, fx, fi, gx, gi = _joint(groups, cst, lbs, tot, q, i_s, xa, ia)
-        with np.errstate(all="ignore"):
+        with np.errstate(all="ignore"):     # overflow here sends the point to stage 2
+            f, g, fx, fi, gx, gi = _joint(groups, cst, lbs, tot, q, i_s, xa, ia)
             det = fx * gi - fi * gx
             dx = (f * gi - g * fi) / det
             d_i = (fx * g - gx * f) / det
@@ -364,53 +365,97 @@ def _padded(lay: _Layout, cst: _Constants, log_beta, totals, q, x, ionic) -> dic
 
 
 def _safeguarded(lay, cst, log_beta, totals, q, i_s, x, ionic, i_cap, tol, max_iter):
-    """Bracketed Newton at fixed activity coefficients, inside the ionic-strength fixed point."""
+    """Stage 2: a bracketed solve in x inside a bracketed solve in I; cannot fail.
+
+    Inner: at fixed activity coefficients the charge balance is strictly
+    increasing in x, so Newton kept inside a bracket (bisection whenever a
+    step leaves it) converges.  Outer: R(I) = I_computed(x(I), I) - I is
+    positive at I = 0 (water's ions alone give some ionic strength) and
+    negative at the cap, so its root can be bracketed too.  The fixed-point
+    step I <- I_computed is taken while it contracts quickly; after that,
+    regula falsi with the Illinois modification inside the bracket.
+    """
     n = x.size
     x = x.copy()
     ionic = ionic.copy()
+    cap = i_cap.copy()
+    lo, r_lo = np.zeros(n), np.full(n, np.nan)
+    hi, r_hi = np.full(n, np.inf), np.full(n, np.nan)
+    last_side = np.zeros(n)
+    r_prev = np.full(n, np.inf)
+    fixed_point = np.ones(n, dtype=bool)
     converged = np.zeros(n, dtype=bool)
     iterations = 0
-    for outer in range(60):
-        def balance(xv, ionic_now=ionic):
-            return _padded(lay, cst, log_beta, totals, q, xv, ionic_now)
-
-        lo = np.full(n, _X_LO)
-        hi = np.full(n, _X_HI)
-        for _ in range(8):   # widen the bracket if needed (extreme activity coefficients)
-            bad_lo = balance(lo)["f"] > 0
-            bad_hi = balance(hi)["f"] < 0
-            if not (bad_lo.any() or bad_hi.any()):
-                break
-            lo = np.where(bad_lo, lo - 10.0, lo)
-            hi = np.where(bad_hi, hi + 10.0, hi)
-        x = np.clip(x, lo, hi)
-        inner_ok = np.zeros(n, dtype=bool)
-        while iterations < max_iter:
-            iterations += 1
-            ev = balance(x)
-            f = ev["f"]
-            lo = np.where(f < 0, x, lo)
-            hi = np.where(f > 0, x, hi)
-            with np.errstate(all="ignore"):
-                newton = x - f / ev["fx"]
-            out = ~np.isfinite(newton) | (newton <= lo) | (newton >= hi)
-            x_new = np.where(out, 0.5 * (lo + hi), newton)
-            dx = np.abs(x_new - x)
-            inner_ok = (dx <= tol * (1.0 + np.abs(x))) | (f == 0) | (hi - lo <= 4e-16 * (1.0 + np.abs(x)))
-            x = np.where(f == 0, x, x_new)
-            if inner_ok.all():
-                break
-        ev = balance(x)
+    for _ in range(200):
+        x, inner_ok, it = _bracketed_x(lay, cst, log_beta, totals, q, x, ionic, tol, max_iter - iterations)
+        iterations += it
+        ev = _padded(lay, cst, log_beta, totals, q, x, ionic)
         new_i = i_s + 0.5 * (ev["ez2"] + ev["hc"] + ev["ohc"])
         if cst.model == "ideal":
             return x, new_i, inner_ok, iterations
-        i_ok = np.abs(new_i - ionic) <= 1e-10 * new_i + 1e-15
-        converged = inner_ok & i_ok
+        r = new_i - ionic
+        converged = inner_ok & (np.abs(r) <= 1e-10 * new_i + 1e-15)
         if converged.all() or iterations >= max_iter:
             break
-        new_i = np.minimum(new_i, i_cap)
-        ionic = np.where(i_ok, ionic, new_i if outer < 30 else 0.5 * (ionic + new_i))
+        up, down = r > 0, r < 0
+        # Illinois: when the same end moves twice running, halve the other end's residual
+        r_hi = np.where(up & (last_side > 0), 0.5 * r_hi, r_hi)
+        r_lo = np.where(down & (last_side < 0), 0.5 * r_lo, r_lo)
+        lo, r_lo = np.where(up, ionic, lo), np.where(up, r, r_lo)
+        hi, r_hi = np.where(down, ionic, hi), np.where(down, r, r_hi)
+        last_side = np.where(up, 1.0, np.where(down, -1.0, last_side))
+        fixed_point &= np.abs(r) < 0.5 * np.abs(r_prev)
+        r_prev = np.abs(r)
+        cap = np.where(up & (ionic >= cap), 10.0 * cap, cap)
+        fixed = np.minimum(new_i, cap)
+        with np.errstate(all="ignore"):
+            secant = (lo * r_hi - hi * r_lo) / (r_hi - r_lo)
+        bracketed = np.isfinite(hi)
+        middle = np.where(bracketed, 0.5 * (lo + hi), np.minimum(np.maximum(fixed, 2.0 * ionic), cap))
+        secant_ok = np.isfinite(secant) & (secant > lo) & (secant < hi)
+        use_fixed = (fixed_point | ~bracketed) & (fixed > lo) & (fixed < hi)
+        step = np.where(use_fixed, fixed, np.where(secant_ok, secant, middle))
+        ionic = np.where(converged, ionic, step)
     return x, ionic, converged, iterations
+
+
+def _bracketed_x(lay, cst, log_beta, totals, q, x, ionic, tol, budget):
+    """Root of the charge balance in x at fixed activity coefficients (those of ``ionic``).
+
+    The bracket is grown outwards from ``x`` (doubling steps), so a good
+    starting value costs only a few evaluations.
+    """
+    def balance(xv):
+        return _padded(lay, cst, log_beta, totals, q, xv, ionic)["f"]
+
+    lo, hi = x - 0.05, x + 0.05
+    width = np.full(x.size, 0.05)
+    for _ in range(12):
+        bad_lo = balance(lo) > 0
+        bad_hi = balance(hi) < 0
+        if not (bad_lo.any() or bad_hi.any()):
+            break
+        width *= 4.0
+        lo = np.where(bad_lo, lo - width, lo)
+        hi = np.where(bad_hi, hi + width, hi)
+    inner_ok = np.zeros(x.size, dtype=bool)
+    iterations = 0
+    while iterations < max(budget, 1):
+        iterations += 1
+        ev = _padded(lay, cst, log_beta, totals, q, x, ionic)
+        f = ev["f"]
+        lo = np.where(f < 0, x, lo)
+        hi = np.where(f > 0, x, hi)
+        with np.errstate(all="ignore"):
+            newton = x - f / ev["fx"]
+        out = ~np.isfinite(newton) | (newton <= lo) | (newton >= hi)
+        x_new = np.where(out, 0.5 * (lo + hi), newton)
+        dx = np.abs(x_new - x)
+        inner_ok = (dx <= tol * (1.0 + np.abs(x))) | (f == 0) | (hi - lo <= 4e-16 * (1.0 + np.abs(x)))
+        x = np.where(f == 0, x, x_new)
+        if inner_ok.all():
+            break
+    return x, inner_ok, iterations
 
 
 def _final(lay, consts, log_beta, totals, q, i_s, x, ionic, converged, iterations) -> _Batch:

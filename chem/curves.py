@@ -73,7 +73,7 @@ class Curve:
     """
 
     kind: str
-    """"titration", "dilution" or "sweep"."""
+    """One of "titration", "dilution" and "sweep"."""
     x: np.ndarray
     x_label: str
     """Name and unit of ``x`` for tables, e.g. "volume_mL", "dilution_factor"."""
@@ -146,14 +146,14 @@ class EquivalencePoint:
 class TitrationCurve(Curve):
     """pH vs added titrant volume (``x`` in mL), with dpH/dV and the equivalence points."""
 
-    volume_L: np.ndarray = field(default=None)             # type: ignore[assignment]
-    slope: np.ndarray = field(default=None)                # type: ignore[assignment]
+    volume_L: np.ndarray
+    slope: np.ndarray
     """dpH/dV at every point, pH per mL (exact for the model)."""
-    equivalence_points: tuple[EquivalencePoint, ...] = ()
-    titrant: Reagent | None = None
-    titrant_conc: float = 0.0
+    equivalence_points: tuple[EquivalencePoint, ...]
+    titrant: Reagent
+    titrant_conc: float
     """mol/L of the titrant stock."""
-    sample_volume_L: float = 0.0
+    sample_volume_L: float
 
 
 @dataclass(frozen=True, eq=False)
@@ -246,14 +246,15 @@ class _Family:
             out["dpH"] = -b.sensitivity(d_weights @ self.tot, d_weights @ self.q, d_weights @ self.i)
         return out
 
-    def run_chunked(self, weights: np.ndarray, t_c: np.ndarray | None, progress: Progress | None,
-                    span: tuple[float, float] = (0.0, 1.0)) -> dict[str, np.ndarray]:
+    def run_chunked(self, weights: np.ndarray, t_c: np.ndarray | None,
+                    progress: Progress | None) -> dict[str, np.ndarray]:
+        """:meth:`run` in chunks of at most ``_CHUNK`` points, reporting progress after each."""
         n = weights.shape[0]
         pieces = []
         for start in range(0, n, _CHUNK):
             stop = min(start + _CHUNK, n)
             pieces.append(self.run(weights[start:stop], None if t_c is None else t_c[start:stop]))
-            _report(progress, span[0] + (span[1] - span[0]) * stop / n)
+            _report(progress, stop / n)
         return {k: np.concatenate([p[k] for p in pieces]) for k in pieces[0]}
 
 
@@ -319,13 +320,18 @@ def find_reagent(name: str, mixture: Mixture | None = None, library: Library | N
     library : Library, optional
         Default: the built-in library.
     """
-    key = normalise(name)
     if mixture is not None:
         for ing in mixture.ingredients:
-            r = ing.reagent
-            if key in {normalise(r.name), *(normalise(a) for a in r.aliases)} or (r.formula and key == normalise(r.formula)):
-                return r
+            if _is_called(ing.reagent, name):
+                return ing.reagent
     return (library or load_library()).reagent(name)
+
+
+def _is_called(reagent: Reagent, name: str) -> bool:
+    """Whether ``name`` is the reagent's name, an alias or its formula (case-insensitive)."""
+    key = normalise(name)
+    return key in {normalise(reagent.name), *(normalise(a) for a in reagent.aliases)} or bool(
+        reagent.formula and key == normalise(reagent.formula))
 
 
 # --------------------------------------------------------------------------
@@ -339,9 +345,10 @@ def titration(mixture: Mixture, titrant: Reagent, titrant_conc: float, sample_vo
 
     Adding V of titrant stock (concentration c_t) to a sample of volume V0
     dilutes every sample amount by V0/(V0+V) and brings the titrant to
-    c_t·V/(V0+V).  The volume grid starts evenly spaced and is refined by
-    bisection wherever neighbouring points differ by more than ``max_step``
-    in pH, so steep regions are drawn in full.  Equivalence points are the
+    c_t·V/(V0+V).  The volume grid starts evenly spaced; every interval
+    whose ends differ by more than ``max_step`` in pH is split (into up to
+    eight parts per pass) until none does, so steep regions are drawn in
+    full.  Equivalence points are the
     clear maxima of |dpH/dV| (exact slope), each located to about 1e-9 of
     the volume range.
 
@@ -455,10 +462,8 @@ _MIN_PEAK_RATIO = 4.0
 def _peak_indices(s: np.ndarray) -> list[int]:
     """Interior maxima of ``s`` that stand out from both neighbouring valleys."""
     out = []
-    n = s.size
-    for i in range(1, n - 1):
-        if not (s[i] > s[i - 1] and s[i] >= s[i + 1]):
-            continue
+    candidates = np.nonzero((s[1:-1] > s[:-2]) & (s[1:-1] >= s[2:]))[0] + 1
+    for i in candidates:
         left = s[:i][::-1]
         higher = np.nonzero(left > s[i])[0]
         valley_l = left[: higher[0] if higher.size else left.size].min()
@@ -466,7 +471,7 @@ def _peak_indices(s: np.ndarray) -> list[int]:
         higher = np.nonzero(right > s[i])[0]
         valley_r = right[: higher[0] if higher.size else right.size].min()
         if s[i] >= _MIN_PEAK_RATIO * max(valley_l, valley_r, 1e-300):
-            out.append(i)
+            out.append(int(i))
     return out
 
 
@@ -639,10 +644,8 @@ def ingredient_index(mixture: Mixture, vary) -> int:
         return int(vary)
     if not isinstance(vary, str) or not vary.strip():
         raise CurveError(f"vary must be an ingredient name or index, or 'temperature' (got {vary!r})")
-    key = normalise(vary)
     for i, ing in enumerate(mixture.ingredients):
-        r = ing.reagent
-        if key in {normalise(r.name), *(normalise(a) for a in r.aliases)} or (r.formula and key == normalise(r.formula)):
+        if _is_called(ing.reagent, vary):
             return i
     names = ", ".join(f"'{ing.reagent.name}'" for ing in mixture.ingredients) or "none"
     raise CurveError(f"'{vary}' is not an ingredient of the mixture (ingredients: {names}; or use 'temperature')")

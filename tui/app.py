@@ -106,7 +106,7 @@ def _bindings() -> list[Binding]:
 class ExplorerApp(App[int]):
     """The live explorer of one mixture."""
 
-    CSS_PATH = "app.tcss"
+    CSS_PATH = Path(__file__).with_name("app.tcss")
     TITLE = "protomix"
     BINDINGS = _bindings()
 
@@ -118,7 +118,7 @@ class ExplorerApp(App[int]):
     """The state changes are shown against, or None."""
     plot_kind: reactive[str] = reactive(PLOT_KINDS[0].id, init=False)
     """Id of the plot on display."""
-    plot_all: reactive[bool] = reactive(True, init=False)
+    plot_all: reactive[bool] = reactive(False, init=False)
     """Plot every system (True) or only the selected ingredient's (False)."""
 
     def __init__(self, mixture: chem.Mixture, *, source: str = "", preset_name: str = "") -> None:
@@ -141,7 +141,6 @@ class ExplorerApp(App[int]):
         self._undo: list[tuple[chem.Mixture, str]] = []
         self._redo: list[tuple[chem.Mixture, str]] = []
         self._generation = 0
-        self._selected = 0
         self._autosave_on = False
         self._utf8 = locale_is_utf8()
 
@@ -206,10 +205,15 @@ class ExplorerApp(App[int]):
         self.mixture = mixture
 
     @property
+    def selected_index(self) -> int:
+        """Index of the ingredient under the flask cursor (may be past the end of an empty flask)."""
+        return self.query_one(FlaskList).cursor
+
+    @property
     def selected(self) -> chem.Ingredient | None:
         """The ingredient under the flask cursor, if any."""
         ingredients = self.mixture.ingredients if self.mixture else ()
-        return ingredients[self._selected] if 0 <= self._selected < len(ingredients) else None
+        return ingredients[self.selected_index] if 0 <= self.selected_index < len(ingredients) else None
 
     # -- solving and plotting ------------------------------------------------------------------
     def _plot_request(self) -> PlotRequest | None:
@@ -265,8 +269,7 @@ class ExplorerApp(App[int]):
         self._recompute()
 
     @on(FlaskList.Selected)
-    def _selection_moved(self, message: FlaskList.Selected) -> None:
-        self._selected = message.index
+    def _selection_moved(self) -> None:
         if not self.plot_all:
             self._recompute()
         self.refresh_bindings()
@@ -373,14 +376,14 @@ class ExplorerApp(App[int]):
     def action_remove(self) -> None:
         ingredient = self.selected
         if ingredient is not None:
-            self.commit(self.mixture.without(self._selected), f"remove {ingredient.reagent.name}")
+            self.commit(self.mixture.without(self.selected_index), f"remove {ingredient.reagent.name}")
 
     def action_nudge(self, direction: int, fine: int) -> None:
         ingredient = self.selected
         if ingredient is None:
             return
         factor = NUDGE_FACTORS[1 if fine else 0] ** direction
-        self._replace(self._selected, ingredient, ingredient.conc * factor, None,
+        self._replace(self.selected_index, ingredient, ingredient.conc * factor, None,
                       f"{'raise' if direction > 0 else 'lower'} {ingredient.reagent.name}")
 
     def action_temperature(self, step: int) -> None:

@@ -17,7 +17,7 @@ async def test_a_reagent_added_through_the_finder_gives_the_ph_chem_solves(libra
     async with app.run_test(size=(120, 40)) as pilot:
         await settle(pilot)
         ph_before = app.result.pH
-        await pilot.press("n", *"sodium acetate")
+        await pilot.press("n", *"NaOAc")                # an alias of sodium acetate
         await pilot.press("enter")                      # pick the first match
         await pilot.press(*"50 mM", "enter")            # the offered amount is selected, so typing replaces it
         await settle(pilot)
@@ -151,12 +151,12 @@ async def test_a_custom_species_defined_in_the_form_is_added_and_solved(settle):
     app = ExplorerApp(chem.Mixture())
     async with app.run_test(size=(120, 40)) as pilot:
         await pilot.press("c")
-        await pilot.press(*"compound 7 hydrochloride", "tab", *"8.4", "tab", "1", "tab", "1", "tab",
+        await pilot.press(*"cpd7 HCl", "tab", *"8.4", "tab", "1", "tab", "1", "tab",
                           *"Cl-", "tab", *"10 mM", "enter")
         await settle(pilot)
         [ingredient] = app.mixture.ingredients
         reagent = ingredient.reagent
-        assert reagent.custom and reagent.name == "compound 7 hydrochloride"
+        assert reagent.custom and reagent.name == "cpd7 HCl"
         assert reagent.system.pka == (8.4,) and reagent.protons == 1
         assert [(ion.name, n) for ion, n in reagent.counter_ions] == [("Cl-", 1)]
         assert ingredient.conc == pytest.approx(0.01)
@@ -167,7 +167,7 @@ async def test_the_custom_form_refuses_a_non_neutral_species_with_a_reason():
     app = ExplorerApp(chem.Mixture())
     async with app.run_test(size=(120, 40)) as pilot:
         await pilot.press("c")
-        await pilot.press(*"odd salt", "tab", *"4.5", "tab", "1", "tab", "1", "tab", "tab", *"1 mM", "enter")
+        await pilot.press("z", "tab", "5", "tab", "1", "tab", "1", "tab", "tab", *"1 mM", "enter")
         error = str(app.screen.query_one("#custom-error", Label).render())
         assert "neutral" in error
         assert app.mixture == chem.Mixture()

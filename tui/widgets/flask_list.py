@@ -92,11 +92,8 @@ class FlaskList(VerticalScroll, can_focus=True):
     cursor: reactive[int] = reactive(0, init=False)
     """Index of the selected ingredient."""
 
-    @dataclass
     class Selected(Message):
-        """The cursor moved to another ingredient (``index`` is -1 for an empty flask)."""
-
-        index: int
+        """The cursor moved to another ingredient (read :attr:`FlaskList.cursor`)."""
 
     @dataclass
     class AmountEntered(Message):
@@ -138,18 +135,12 @@ class FlaskList(VerticalScroll, can_focus=True):
             self._rows = [_FlaskRow(ing) for ing in ingredients]
             self.mount_all(self._rows)
         self.query_one("#flask-empty").display = not ingredients
-        self.call_after_refresh(self._place_cursor, ingredients)
-
-    def _place_cursor(self, ingredients) -> None:
-        old = self.cursor
         self.cursor = max(0, min(self.cursor, len(ingredients) - 1))
-        self._mark_cursor()
-        if old == self.cursor:
-            self.post_message(self.Selected(self.cursor if ingredients else -1))
+        self.call_after_refresh(self._mark_cursor)
 
     def watch_cursor(self) -> None:
         self._mark_cursor()
-        self.post_message(self.Selected(self.cursor if self.rows else -1))
+        self.post_message(self.Selected())
 
     def _mark_cursor(self) -> None:
         for i, row in enumerate(self.rows):

@@ -120,6 +120,44 @@ def grid_points(width: int) -> int:
     return int(min(400, max(60, 2 * width)))
 
 
+def simplify(x: np.ndarray, y: np.ndarray, x_step: float, y_step: float) -> tuple[np.ndarray, np.ndarray]:
+    """Drop points that lie within half a plot dot of the line through their neighbours.
+
+    Ramer–Douglas–Peucker line simplification in units of plot dots
+    (``x_step`` and ``y_step`` are the data size of one dot). Flat and straight
+    stretches shrink to their end points, which is most of a speciation curve,
+    and plotext's cost grows with the number of segments drawn.
+    """
+    px, py = x / x_step, y / y_step
+    keep = np.zeros(len(x), dtype=bool)
+    keep[0] = keep[-1] = True
+    stack = [(0, len(x) - 1)]
+    while stack:
+        a, b = stack.pop()
+        if b - a < 2:
+            continue
+        dx, dy = px[b] - px[a], py[b] - py[a]
+        seg = np.hypot(dx, dy) or 1.0
+        dist = np.abs(dy * (px[a + 1:b] - px[a]) - dx * (py[a + 1:b] - py[a])) / seg
+        i = int(np.argmax(dist))
+        if dist[i] > 0.5:
+            k = a + 1 + i
+            keep[k] = True
+            stack += [(a, k), (k, b)]
+    return x[keep], y[keep]
+
+
+def visible_runs(y: np.ndarray, floor: float) -> list[slice]:
+    """Stretches of ``y`` that rise above ``floor``, each widened by one point at both ends.
+
+    A curve lying on the bottom of the plot draws nothing worth seeing (it would
+    only thicken the axis), and every dot plotext draws costs time.
+    """
+    up = np.concatenate(([False], y > floor, [False]))
+    edges = np.flatnonzero(up[1:] != up[:-1])
+    return [slice(max(a - 1, 0), min(b + 1, len(y))) for a, b in zip(edges[::2], edges[1::2])]
+
+
 def _legend(labels: Sequence[str], style: PlotStyle, width: int, max_rows: int) -> Text:
     """Series names with their symbols, wrapped to ``width``, at most ``max_rows`` lines."""
     lines: list[Text] = [Text()]
@@ -171,9 +209,13 @@ def draw(x: np.ndarray, curves: Sequence[tuple[str, np.ndarray]], ph: float, req
     fig.plotsize(width, height)
     fig._set_size(width, height)
     fig.theme("clear")
-    for i, (_, y) in enumerate(curves):
-        fig.plot(x, y, marker=style.marker(i), color=style.color(i))
     lo, hi = float(x[0]), float(x[-1])
+    x_step = (hi - lo) / (2 * width)                  # braille: 2 x 4 dots per cell
+    y_step = (ylim[1] - ylim[0]) / (4 * height)
+    for i, (_, y) in enumerate(curves):
+        y = np.clip(y, *ylim)
+        for run in visible_runs(y, ylim[0] + y_step / 2):
+            fig.plot(*simplify(x[run], y[run], x_step, y_step), marker=style.marker(i), color=style.color(i))
     fig.xlim(lo, hi)
     fig.ylim(*ylim)
     step = 2.0 if width >= 50 else 3.5

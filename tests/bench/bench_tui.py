@@ -1,0 +1,236 @@
+"""Explorer start-up and keystroke latency (a plain script, not collected by pytest).
+
+Run:  python tests/bench/bench_tui.py [--trials N]
+
+Reports, each as median and p95 where there are repeats:
+
+* start-up: process start until the first frame that shows the pH, headless
+  (``python -m tui``-equivalent in a child process) and, where tmux exists, in a
+  real 80x24 terminal (key sent to the shell until "pOH" is on the pane);
+* keystroke to fully updated screen (pH, species and plot) for a 10-ingredient
+  mixture at 120x40, nudging an amount with the arrow keys, keys 150 ms apart;
+  the same with keys 30 ms apart (fast repeat: stale results must be dropped);
+* echo: a character typed into the amount editor and into the finder until the
+  frame that shows it, also while a re-solve and plot are running.
+
+Targets (from the issue): start-up < 1.0 s, keystroke -> full update < 50 ms median
+and < 100 ms p95, echo < 16 ms. Frames are timestamped by wrapping the app's
+private ``_display`` (benchmark only); headless runs skip the terminal write.
+"""
+
+from __future__ import annotations
+
+import argparse
+import asyncio
+import os
+import shutil
+import statistics
+import subprocess
+import sys
+import tempfile
+import time
+from pathlib import Path
+
+ROOT = Path(__file__).resolve().parents[2]
+sys.path.insert(0, str(ROOT))
+
+import chem  # noqa: E402
+from textual import events  # noqa: E402
+
+from tui.app import ExplorerApp  # noqa: E402
+from tui.messages import Plotted  # noqa: E402
+from tui.widgets.flask_list import FlaskList  # noqa: E402
+
+TEN = [("acetic acid", "20 mM"), ("sodium acetate", "15 mM"), ("disodium hydrogen phosphate", "10 mM"),
+       ("potassium dihydrogen phosphate", "10 mM"), ("citric acid", "5 mM"), ("tris", "8 mM"),
+       ("ammonium chloride", "4 mM"), ("sodium bicarbonate", "6 mM"), ("sodium chloride", "100 mM"),
+       ("boric acid", "3 mM")]
+
+
+def ten_ingredients() -> chem.Mixture:
+    lib = chem.load_library()
+    return chem.Mixture(tuple(chem.Ingredient(lib.reagent(name), chem.parse_concentration(amount), amount)
+                              for name, amount in TEN), title="benchmark: ten ingredients")
+
+
+def summary(values_ms: list[float]) -> str:
+    values = sorted(values_ms)
+    p95 = values[min(len(values) - 1, round(0.95 * (len(values) - 1)))]
+    return f"median {statistics.median(values):6.1f} ms   p95 {p95:6.1f} ms   (n={len(values)})"
+
+
+# -- start-up -----------------------------------------------------------------------------------
+
+CHILD = r"""
+import sys, time
+from tui.app import ExplorerApp
+from tui.messages import Solved
+import chem
+
+class Probe(ExplorerApp):
+    def on_solved(self, message):
+        self.call_after_refresh(self._frame)
+
+    def _frame(self):
+        print(time.time(), flush=True)
+        self.exit(0)
+
+Probe(chem.demo_mixture(), source="demo").run(headless=True, size=(80, 24))
+"""
+
+
+def startup_headless(trials: int, data_dir: str) -> list[float]:
+    out = []
+    env = dict(os.environ, PROTOMIX_DATA_DIR=data_dir)
+    for _ in range(trials):
+        t0 = time.time()
+        done = subprocess.run([sys.executable, "-c", CHILD], capture_output=True, text=True, cwd=ROOT, env=env,
+                              check=True)
+        out.append((float(done.stdout.split()[-1]) - t0) * 1e3)
+    return out
+
+
+def startup_tmux(trials: int, data_dir: str) -> list[float]:
+    sock = f"pmx-bench-{os.getpid()}"
+    tmux = ["tmux", "-L", sock]
+    out = []
+    try:
+        subprocess.run([*tmux, "new-session", "-d", "-s", "b", "-x", "80", "-y", "24",
+                        "-e", f"PROTOMIX_DATA_DIR={data_dir}", "-e", "TERM=xterm-256color"], check=True)
+        for _ in range(trials):
+            subprocess.run([*tmux, "send-keys", "-t", "b", "clear", "Enter"], check=True)
+            time.sleep(0.3)
+            t0 = time.perf_counter()
+            subprocess.run([*tmux, "send-keys", "-t", "b", f"cd {ROOT} && {sys.executable} -m tui", "Enter"],
+                           check=True)
+            while "pOH" not in subprocess.run([*tmux, "capture-pane", "-p", "-t", "b"], capture_output=True,
+                                              text=True).stdout:
+                if time.perf_counter() - t0 > 10:
+                    raise RuntimeError("the explorer did not show the pH within 10 s")
+                time.sleep(0.005)
+            out.append((time.perf_counter() - t0) * 1e3)
+            subprocess.run([*tmux, "send-keys", "-t", "b", "C-q"], check=True)
+            time.sleep(0.8)
+    finally:
+        subprocess.run([*tmux, "kill-server"], capture_output=True)
+    return out
+
+
+# -- keystroke latency ---------------------------------------------------------------------------
+
+class TimedExplorer(ExplorerApp):
+    """The explorer, timestamping composited frames and the arrival of finished plots."""
+
+    def __init__(self, mixture: chem.Mixture) -> None:
+        super().__init__(mixture)
+        self.frames: list[float] = []
+        self.plotted: dict[int, float] = {}
+
+    def on_plotted(self, message: Plotted) -> None:
+        self.plotted[message.generation] = time.perf_counter()
+
+    def _display(self, screen, renderable) -> None:
+        super()._display(screen, renderable)
+        if renderable is not None:
+            self.frames.append(time.perf_counter())
+
+
+async def _frame_after(app: TimedExplorer, t: float, timeout: float = 2.0) -> float:
+    """Time of the first frame composited after ``t``."""
+    end = time.perf_counter() + timeout
+    while time.perf_counter() < end:
+        later = [f for f in app.frames if f > t]
+        if later:
+            return later[0]
+        await asyncio.sleep(0.001)
+    raise TimeoutError("no frame")
+
+
+async def _settled(app: TimedExplorer, generation: int, timeout: float = 3.0) -> float:
+    """Wait for the frame that shows the plot of request ``generation`` (or a later one); its time."""
+    end = time.perf_counter() + timeout
+    while time.perf_counter() < end:
+        shown = app.plotted.get(app._generation) if app._generation >= generation else None
+        if shown is not None:
+            return await _frame_after(app, shown)
+        await asyncio.sleep(0.001)
+    raise TimeoutError("the plot of the last request never arrived")
+
+
+async def keystrokes(trials: int, gap_s: float, burst: int, plot_all: bool = False) -> list[float]:
+    """Last key of each burst -> frame with the result of that last key."""
+    app = TimedExplorer(ten_ingredients())
+    out = []
+    async with app.run_test(size=(120, 40)) as pilot:
+        app.plot_all = plot_all
+        await pilot.pause(0.5)
+        await _settled(app, app._generation)
+        for i in range(trials):
+            key = "right" if i % 2 == 0 else "left"
+            target = app._generation + burst                # each nudge asks for one solve and plot
+            for _ in range(burst):
+                t0 = time.perf_counter()
+                app._driver.send_message(events.Key(key, None))
+                await asyncio.sleep(gap_s)
+            done = await _settled(app, target)
+            out.append((done - t0) * 1e3)
+            await asyncio.sleep(0.05)
+    return out
+
+
+async def echo(trials: int, where: str, busy: bool) -> list[float]:
+    """A typed character until the frame that shows it (optionally while a re-solve runs)."""
+    app = TimedExplorer(ten_ingredients())
+    out = []
+    async with app.run_test(size=(120, 40)) as pilot:
+        await pilot.pause(0.5)
+        if where == "finder":
+            await pilot.press("n")
+            entry = app.screen.query_one("#picker-query")
+        else:
+            await pilot.press("enter")
+            entry = app.query_one(FlaskList).rows[0].editor
+        await pilot.pause(0.2)
+        for i in range(trials):
+            if busy:
+                app._recompute()
+                await asyncio.sleep(0.002)
+            ch = "abcdefgh"[i % 8]
+            before = entry.value
+            t0 = time.perf_counter()
+            app._driver.send_message(events.Key(ch, ch))
+            while entry.value == before:
+                await asyncio.sleep(0.0005)
+            shown = await _frame_after(app, time.perf_counter())
+            out.append((shown - t0) * 1e3)
+            app._driver.send_message(events.Key("backspace", None))
+            await asyncio.sleep(0.12)
+    return out
+
+
+def main() -> None:
+    parser = argparse.ArgumentParser(description=__doc__, formatter_class=argparse.RawDescriptionHelpFormatter)
+    parser.add_argument("--trials", type=int, default=40)
+    args = parser.parse_args()
+    with tempfile.TemporaryDirectory() as data:
+        os.environ["PROTOMIX_DATA_DIR"] = data
+        print(f"protomix explorer benchmark ({os.cpu_count()} cores, Python {sys.version.split()[0]})")
+        print(f"start-up, headless child process, to first frame with pH:  {summary(startup_headless(8, data))}")
+        if shutil.which("tmux"):
+            print(f"start-up, tmux 80x24, key to 'pOH' on the pane:            {summary(startup_tmux(6, data))}")
+        else:
+            print("start-up in tmux: skipped (tmux not found)")
+        print(f"nudge key -> full update, 10 ingredients, 120x40, keys 150 ms apart: "
+              f"{summary(asyncio.run(keystrokes(args.trials, 0.15, 1)))}")
+        print(f"the same with all 10 systems plotted (19 curves):                 "
+              f"{summary(asyncio.run(keystrokes(args.trials, 0.15, 1, plot_all=True)))}")
+        print(f"last of 5 keys 30 ms apart -> its full update:                    "
+              f"{summary(asyncio.run(keystrokes(args.trials // 2, 0.03, 5)))}")
+        for where in ("amount editor", "finder"):
+            for busy in (False, True):
+                label = f"echo in the {where}{', re-solve running' if busy else ''}:"
+                print(f"{label:<66} {summary(asyncio.run(echo(args.trials, where, busy)))}")
+
+
+if __name__ == "__main__":
+    main()

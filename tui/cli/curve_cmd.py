@@ -1,0 +1,439 @@
+"""``protomix curve FILE --kind KIND``: a curve of a preset as a text plot, CSV or JSON.
+
+Kinds: titration (pH vs added titrant), capacity (buffer capacity vs pH),
+dilution (pH and species vs dilution factor), sweep (one amount or the
+temperature varied), distribution (fractions vs pH) and logc (log C vs pH).
+All numbers come from :mod:`chem.curves` and :mod:`chem.diagrams`; this
+module only reads options, draws and writes.
+"""
+
+from __future__ import annotations
+
+import csv
+import json
+import math
+import os
+import shutil
+import sys
+import time
+from dataclasses import dataclass, field
+from typing import TYPE_CHECKING
+
+if TYPE_CHECKING:          # numpy is imported only when a curve is computed (keeps --help fast)
+    import numpy as np
+
+HELP = "curves of a preset: titration, buffer capacity, dilution, sweeps, distribution, log C"
+
+DESCRIPTION = ("Compute a curve of the mixture in FILE.toml and draw it as a text plot, "
+               "or write the data with --csv or --json.")
+
+EPILOG = """examples:
+  protomix curve buffer.toml --kind titration --titrant NaOH --titrant-conc "0.1 M" --sample "25 mL" --to "50 mL"
+  protomix curve buffer.toml --kind capacity --from 3 --to 11
+  protomix curve buffer.toml --kind dilution --to 1000 --json
+  protomix curve buffer.toml --kind sweep --vary "sodium chloride" --from "0 mM" --to "500 mM" --points 101 --csv
+  protomix curve buffer.toml --kind sweep --vary temperature --from 4 --to 60 --species HPO4^2-
+  protomix curve buffer.toml --kind distribution --species H2PO4-,HPO4^2-
+
+--from/--to mean: titration, titrant volumes (default from 0 mL); sweep, amounts of
+the varied ingredient (e.g. "1 mM") or temperatures in °C; dilution, dilution factors
+(default 1 to 1000); capacity, distribution, logc, pH (default 0 to 14).
+Species series are concentrations in mol/L (fractions of their system with --fractions)."""
+
+KINDS = ("titration", "capacity", "dilution", "sweep", "distribution", "logc")
+
+#: Options that only make sense for some kinds (dest -> (option, kinds)).
+_ONLY_FOR = {
+    "titrant": ("--titrant", ("titration",)),
+    "titrant_conc": ("--titrant-conc", ("titration",)),
+    "sample": ("--sample", ("titration",)),
+    "max_step": ("--max-step", ("titration",)),
+    "vary": ("--vary", ("sweep",)),
+    "fractions": ("--fractions", ("titration", "dilution", "sweep")),
+    "species": ("--species", ("titration", "dilution", "sweep", "distribution", "logc")),
+}
+_REQUIRED = {
+    "titration": (("titrant", "--titrant"), ("titrant_conc", "--titrant-conc"), ("sample", "--sample"),
+                  ("stop", "--to")),
+    "sweep": (("vary", "--vary"), ("start", "--from"), ("stop", "--to")),
+}
+_DEFAULT_POINTS = {"titration": 201, "capacity": 281, "dilution": 61, "sweep": 101, "distribution": 281,
+                   "logc": 281}
+
+
+def add_arguments(parser) -> None:
+    parser.add_argument("file", metavar="FILE.toml", help="preset file with the mixture")
+    parser.add_argument("--kind", required=True, choices=KINDS, help="which curve")
+    rng = parser.add_argument_group("range")
+    rng.add_argument("--from", dest="start", metavar="X", help="start of the range (meaning depends on --kind)")
+    rng.add_argument("--to", dest="stop", metavar="Y", help="end of the range (meaning depends on --kind)")
+    rng.add_argument("--points", type=int, metavar="N", help="number of points (titration: the even grid "
+                     "before refinement in steep parts)")
+    tit = parser.add_argument_group("titration")
+    tit.add_argument("--titrant", metavar="NAME", help="reagent added (library name, alias or formula, "
+                     "or a custom reagent of the preset)")
+    tit.add_argument("--titrant-conc", metavar="AMOUNT", help='titrant stock concentration, e.g. "0.1 M"')
+    tit.add_argument("--sample", metavar="VOLUME", help='volume of the sample titrated, e.g. "25 mL"')
+    tit.add_argument("--max-step", type=float, metavar="PH",
+                     help="largest pH step left between neighbouring points (default 0.05)")
+    swp = parser.add_argument_group("sweep")
+    swp.add_argument("--vary", metavar="NAME", help="ingredient whose amount varies, or 'temperature'")
+    sel = parser.add_argument_group("series")
+    sel.add_argument("--species", action="append", metavar="NAME[,NAME...]",
+                     help="species to include (repeatable; 'all' for every species)")
+    sel.add_argument("--fractions", action="store_true",
+                     help="species as fractions of their system instead of mol/L")
+    out = parser.add_argument_group("output").add_mutually_exclusive_group()
+    out.add_argument("--csv", action="store_true", help="write the data as CSV")
+    out.add_argument("--json", action="store_true", help="write the data as one JSON object")
+    parser.add_argument("--width", type=int, metavar="COLS", help="plot width (default: the terminal's)")
+    parser.add_argument("--height", type=int, metavar="ROWS", help="plot height (default: about 24 rows)")
+
+
+# --------------------------------------------------------------------------
+# the data, whatever the kind
+# --------------------------------------------------------------------------
+
+@dataclass
+class _Result:
+    """One curve ready to write or draw."""
+
+    kind: str
+    x_label: str
+    x: np.ndarray
+    series: dict[str, np.ndarray]
+    main: list[str]
+    """Series drawn in the top plot."""
+    ylabel: str
+    xlabel: str
+    extra: list[str] = field(default_factory=list)
+    """Species series drawn in a second plot."""
+    extra_label: str = ""
+    marks: list[float] = field(default_factory=list)
+    """x positions marked with a vertical line (equivalence points, the mixture's pH)."""
+    log_x: bool = False
+    equivalence: list[tuple[float, float]] = field(default_factory=list)
+    notes: list[str] = field(default_factory=list)
+    not_converged: int = 0
+
+
+def _fail(message: str):
+    from chem.curves import CurveError
+
+    raise CurveError(message)
+
+
+def _check_options(args) -> None:
+    for dest, (option, kinds) in _ONLY_FOR.items():
+        value = getattr(args, dest)
+        if value not in (None, False) and args.kind not in kinds:
+            _fail(f"{option} applies only to --kind {' or '.join(kinds)}")
+    for dest, option in _REQUIRED.get(args.kind, ()):
+        if getattr(args, dest) is None:
+            _fail(f"--kind {args.kind} needs {option}")
+    if args.points is not None and not 2 <= args.points <= 1_000_000:
+        _fail(f"--points must be from 2 to 1000000 (got {args.points})")
+    for option, value, least in (("--width", args.width, 30), ("--height", args.height, 8)):
+        if value is not None and not least <= value <= 1000:
+            _fail(f"{option} must be from {least} to 1000 (got {value})")
+    if args.max_step is not None and not (math.isfinite(args.max_step) and args.max_step > 0):
+        _fail(f"--max-step must be a positive number of pH units (got {args.max_step})")
+
+
+def _number(text: str | None, option: str, what: str, default: float | None = None) -> float:
+    if text is None:
+        if default is None:
+            _fail(f"{option} is needed")
+        return default
+    cleaned = text.strip()
+    for suffix in ("°C", "C"):
+        if what == "temperature" and cleaned.endswith(suffix):
+            cleaned = cleaned[: -len(suffix)].strip()
+    try:
+        value = float(cleaned)
+    except ValueError:
+        _fail(f"{option}: '{text}' is not a {what}")
+    if not math.isfinite(value):
+        _fail(f"{option}: '{text}' is not a finite number")
+    return value
+
+
+def _species_list(args, available: tuple[str, ...]) -> list[str]:
+    """The species named with --species ('all' for every one of ``available``)."""
+    names: list[str] = []
+    for item in args.species:
+        for name in (n.strip() for n in item.split(",")):
+            if not name:
+                continue
+            if name.lower() == "all":
+                names.extend(n for n in available if n not in names)
+            elif name not in available:
+                _fail(f"--species: no species '{name}' here (species: {', '.join(available)})")
+            elif name not in names:
+                names.append(name)
+    return names
+
+
+def _curve_species(curve, args, default_all: bool) -> tuple[dict[str, np.ndarray], list[str]]:
+    """Species series of a curve: the chosen ones, or (``default_all``) every system species."""
+    system_species = tuple(n for n, s in zip(curve.species, curve.species_system) if s != "water")
+    if args.species:
+        names = _species_list(args, system_species if args.fractions else curve.species)
+    else:
+        names = list(system_species) if default_all else []
+    get = curve.fraction_of if args.fractions else curve.conc_of
+    return {n: get(n) for n in names}, names
+
+
+def _titration(args, mixture, progress) -> _Result:
+    from chem import parse_concentration, parse_volume
+    from chem.curves import find_reagent, titration
+
+    titrant = find_reagent(args.titrant, mixture)
+    conc = parse_concentration(args.titrant_conc, molar_mass=titrant.molar_mass)
+    sample = parse_volume(args.sample)
+    start = 0.0 if args.start is None else parse_volume(args.start)
+    curve = titration(mixture, titrant, conc, sample, parse_volume(args.stop), from_volume_L=start,
+                      points=args.points or _DEFAULT_POINTS["titration"],
+                      max_step=0.05 if args.max_step is None else args.max_step, progress=progress)
+    species, names = _curve_species(curve, args, default_all=False)
+    series = {"pH": curve.pH, "dpH_dmL": curve.slope, "ionic_strength_M": curve.ionic_strength, **species}
+    eqp = [(e.volume_mL, e.pH) for e in curve.equivalence_points]
+    notes = [f"titrant {titrant.name}, {args.titrant_conc.strip()}, into a {args.sample.strip()} sample; "
+             f"{len(curve)} points"]
+    notes += [f"equivalence point {i + 1}: {v:.4f} mL, pH {p:.3f}" for i, (v, p) in enumerate(eqp)]
+    if not eqp:
+        notes.append("no clear equivalence point in this range")
+    return _Result("titration", curve.x_label, curve.x, series, ["pH"], "pH", "titrant added (mL)",
+                   extra=names, extra_label="fraction" if args.fractions else "mol/L",
+                   marks=[v for v, _ in eqp], equivalence=eqp, notes=notes,
+                   not_converged=int((~curve.converged).sum()))
+
+
+def _capacity(args, mixture, progress) -> _Result:
+    import numpy as np
+
+    from chem import format_molar, solve
+    from chem.curves import buffer_capacity, buffer_capacity_at
+
+    lo = _number(args.start, "--from", "pH", 0.0)
+    hi = _number(args.stop, "--to", "pH", 14.0)
+    if not hi > lo:
+        _fail(f"--from must be below --to (got {lo:g} and {hi:g})")
+    grid = np.linspace(lo, hi, args.points or _DEFAULT_POINTS["capacity"])
+    cap = buffer_capacity(mixture, grid, progress=progress)
+    eq = solve(mixture)
+    beta = buffer_capacity_at(eq)
+    series = {"pH": cap.pH, "beta_M_per_pH": cap.beta, "added_base_M": cap.added_base,
+              "ionic_strength_M": cap.ionic_strength}
+    notes = [f"buffer capacity at the mixture's pH {eq.pH:.3f}: {format_molar(beta)}/pH",
+             "added_base_M: strong base (negative: acid) that brings the mixture to each pH"]
+    marks = [eq.pH] if lo <= eq.pH <= hi else []
+    return _Result("capacity", "pH", cap.pH, series, ["beta_M_per_pH"], "β (mol/L per pH)", "pH", marks=marks,
+                   notes=notes, not_converged=int((~cap.converged).sum()))
+
+
+def _dilution(args, mixture, progress) -> _Result:
+    import numpy as np
+
+    from chem.curves import dilution
+
+    lo = _number(args.start, "--from", "dilution factor", 1.0)
+    hi = _number(args.stop, "--to", "dilution factor", 1000.0)
+    if not 1.0 <= lo < hi:
+        _fail(f"dilution factors must run upwards from 1 or more (got {lo:g} to {hi:g})")
+    factors = np.logspace(math.log10(lo), math.log10(hi), args.points or _DEFAULT_POINTS["dilution"])
+    curve = dilution(mixture, factors, progress=progress)
+    species, names = _curve_species(curve, args, default_all=True)
+    series = {"pH": curve.pH, "ionic_strength_M": curve.ionic_strength, **species}
+    notes = [f"pH {curve.pH[0]:.3f} undiluted, {curve.pH[-1]:.3f} at {hi:g}-fold dilution"]
+    return _Result("dilution", curve.x_label, curve.x, series, ["pH"], "pH", "dilution factor", extra=names,
+                   extra_label="fraction" if args.fractions else "mol/L", log_x=True, notes=notes,
+                   not_converged=int((~curve.converged).sum()))
+
+
+def _sweep(args, mixture, progress) -> _Result:
+    import numpy as np
+
+    from chem import parse_concentration
+    from chem.curves import ingredient_index, sweep
+
+    points = args.points or _DEFAULT_POINTS["sweep"]
+    if args.vary.strip().lower() == "temperature":
+        lo = _number(args.start, "--from", "temperature")
+        hi = _number(args.stop, "--to", "temperature")
+        vary, xlabel = "temperature", "temperature (°C)"
+    else:
+        ing = mixture.ingredients[ingredient_index(mixture, args.vary)]
+        mm = ing.reagent.molar_mass
+        lo = parse_concentration(args.start, molar_mass=mm)
+        hi = parse_concentration(args.stop, molar_mass=mm)
+        vary, xlabel = args.vary, f"{ing.reagent.name} (mol/L)"
+    if not hi > lo:
+        _fail(f"--from must be below --to (got {args.start} and {args.stop})")
+    curve = sweep(mixture, vary, np.linspace(lo, hi, points), progress=progress)
+    species, names = _curve_species(curve, args, default_all=False)
+    series = {"pH": curve.pH, "ionic_strength_M": curve.ionic_strength, **species}
+    notes = [f"pH {curve.pH[0]:.3f} at {args.start.strip()}, {curve.pH[-1]:.3f} at {args.stop.strip()}"]
+    return _Result("sweep", curve.x_label, curve.x, series, ["pH"], "pH", xlabel, extra=names,
+                   extra_label="fraction" if args.fractions else "mol/L", notes=notes,
+                   not_converged=int((~curve.converged).sum()))
+
+
+def _diagram(args, mixture, progress) -> _Result:
+    import numpy as np
+
+    from chem import solve
+    from chem.diagrams import distribution, log_concentrations
+
+    lo = _number(args.start, "--from", "pH", 0.0)
+    hi = _number(args.stop, "--to", "pH", 14.0)
+    if not hi > lo:
+        _fail(f"--from must be below --to (got {lo:g} and {hi:g})")
+    eq = solve(mixture)
+    grid = np.linspace(lo, hi, args.points or _DEFAULT_POINTS[args.kind])
+    if args.kind == "distribution":
+        diagram = distribution(mixture, grid, ionic_strength=eq.ionic_strength)
+        ylabel = "fraction"
+    else:
+        diagram = log_concentrations(mixture, grid, ionic_strength=eq.ionic_strength)
+        ylabel = "log C (M)"
+    names = _species_list(args, tuple(diagram.series)) if args.species else list(diagram.series)
+    series = {"pH": diagram.ph, **{n: diagram.series[n] for n in names}}
+    notes = [f"at the mixture's ionic strength {eq.ionic_strength:.4g} M; the mixture's pH is {eq.pH:.3f}"]
+    marks = [eq.pH] if lo <= eq.pH <= hi else []
+    return _Result(args.kind, "pH", diagram.ph, series, names, ylabel, "pH", marks=marks, notes=notes)
+
+
+_COMPUTE = {"titration": _titration, "capacity": _capacity, "dilution": _dilution, "sweep": _sweep,
+            "distribution": _diagram, "logc": _diagram}
+
+
+# --------------------------------------------------------------------------
+# output
+# --------------------------------------------------------------------------
+
+def _num(v) -> float | None:
+    v = float(v)
+    return v if math.isfinite(v) else None
+
+
+def to_json(res: _Result) -> dict:
+    """The JSON object of ``protomix curve --json``."""
+    doc = {"kind": res.kind, "x_label": res.x_label, "x": [_num(v) for v in res.x],
+           "series": {name: [_num(v) for v in values] for name, values in res.series.items()}}
+    if res.kind == "titration":
+        doc["equivalence_points"] = [{"volume_mL": _num(v), "pH": _num(p)} for v, p in res.equivalence]
+    return doc
+
+
+def write_csv(res: _Result, stream) -> None:
+    """Header row (x label, then series names), then one row per point."""
+    writer = csv.writer(stream, lineterminator="\n")
+    names = list(res.series)
+    writer.writerow([res.x_label, *names])
+    columns = [res.x, *(res.series[n] for n in names)]
+    for row in zip(*columns):
+        writer.writerow(["" if not math.isfinite(v) else repr(float(v)) for v in row])
+
+
+_ASCII = str.maketrans({"─": "-", "│": "|", "┌": "+", "┐": "+", "└": "+", "┘": "+", "┬": "+", "┴": "+",
+                        "├": "+", "┤": "+", "┼": "+", "▏": "|", "•": "*"})
+
+
+def render_plot(res: _Result, width: int, height: int, *, color: bool, utf8: bool) -> str:
+    """The text plot (plotext): the main series on top, species below when there are any."""
+    import numpy as np
+    import plotext as plt
+
+    plt.clear_figure()
+    two = bool(res.extra)
+    plt.plotsize(width, height * 2 if two else height)
+    if two:
+        plt.subplots(2, 1)
+        plt.subplot(1, 1)
+    marker = "braille" if utf8 else "*"
+    x = [float(v) for v in res.x]
+
+    def draw(names, ylabel):
+        for name in names:
+            y = res.series[name]
+            ok = np.isfinite(y)
+            plt.plot([xv for xv, good in zip(x, ok) if good], [float(v) for v in y[ok]],
+                     label=name if len(names) > 1 else None, marker=marker)
+        for m in res.marks:
+            plt.vline(float(m), "gray" if color else None)
+        if res.log_x:
+            plt.xscale("log")
+        plt.ylabel(ylabel)
+
+    draw(res.main, res.ylabel)
+    plt.title(f"{res.kind}")
+    if two:
+        plt.subplot(2, 1)
+        draw(res.extra, res.extra_label)
+    plt.xlabel(res.xlabel)
+    text = plt.build()
+    if not color:
+        text = plt.uncolorize(text)
+    if not utf8:
+        text = text.translate(_ASCII)
+    return text
+
+
+class _ProgressBar:
+    """A bar on stderr for work taking over a second; nothing when stderr is not a terminal."""
+
+    def __init__(self, stream=None, delay: float = 1.0):
+        self.stream = stream if stream is not None else sys.stderr
+        self.enabled = bool(getattr(self.stream, "isatty", lambda: False)())
+        self.start = time.monotonic()
+        self.delay = delay
+        self.shown = False
+
+    def __call__(self, fraction: float) -> bool:
+        if self.enabled and time.monotonic() - self.start >= self.delay:
+            filled = int(round(30 * fraction))
+            self.stream.write(f"\rcomputing [{'#' * filled}{'.' * (30 - filled)}] {100 * fraction:3.0f}%")
+            self.stream.flush()
+            self.shown = True
+        return True
+
+    def close(self) -> None:
+        if self.shown:
+            self.stream.write("\r" + " " * 50 + "\r")
+            self.stream.flush()
+
+
+def run(args) -> int:
+    from chem import load_preset
+
+    _check_options(args)
+    mixture = load_preset(args.file)
+    bar = _ProgressBar()
+    try:
+        res = _COMPUTE[args.kind](args, mixture, bar)
+    finally:
+        bar.close()
+    if res.not_converged:
+        print(f"protomix: warning: {res.not_converged} point(s) did not converge; their numbers are unreliable",
+              file=sys.stderr)
+    if args.json:
+        sys.stdout.write(json.dumps(to_json(res), ensure_ascii=False) + "\n")
+    elif args.csv:
+        write_csv(res, sys.stdout)
+    else:
+        cols, _rows = shutil.get_terminal_size((100, 30))
+        width = args.width or max(40, min(cols, 160))
+        height = args.height or 24
+        out = sys.stdout
+        tty = bool(getattr(out, "isatty", lambda: False)())
+        color = tty and "NO_COLOR" not in os.environ
+        encoding = (getattr(out, "encoding", None) or "").lower().replace("-", "")
+        utf8 = encoding == "utf8"
+        title = mixture.title or args.file
+        print(f"{title}  ({mixture.temperature_c:g} °C, activity: {mixture.activity})")
+        print(render_plot(res, width, height, color=color, utf8=utf8))
+        for note in res.notes:
+            print(note)
+    return 0
