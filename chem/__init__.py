@@ -17,6 +17,26 @@ from .model import (AcidBaseSystem, Equilibrium, Ingredient, Ion, Mixture, Notic
 from .presets import demo_mixture, dumps_preset, load_preset, loads_preset, save_preset, shipped_presets
 from .units import parse_concentration, parse_volume
 
+# Curves and recipes are loaded on first use: the recipe designer needs
+# scipy.optimize (about 0.3-0.7 s to import), which the explorer's start-up
+# should not pay for.
+_LAZY = {
+    **{name: "curves" for name in ("CapacityCurve", "Curve", "CurveError", "EquivalencePoint", "TitrationCurve",
+                                   "buffer_capacity", "buffer_capacity_at", "dilution", "sweep", "titration")},
+    **{name: "recipe" for name in ("Recipe", "RecipeError", "design_buffer", "suggest_systems")},
+}
+
+
+def __getattr__(name: str):
+    module = _LAZY.get(name)
+    if module is None:
+        raise AttributeError(f"module 'chem' has no attribute {name!r}")
+    import importlib
+
+    value = getattr(importlib.import_module(f"chem.{module}"), name)
+    globals()[name] = value
+    return value
+
 __version__ = "0.1.0"
 
 __all__ = [
@@ -24,4 +44,7 @@ __all__ = [
     "Mixture", "ModelError", "Notice", "PresetError", "Reagent", "Species", "UnitError",
     "demo_mixture", "dumps_preset", "format_molar", "shipped_presets", "load_library", "load_preset", "loads_preset",
     "parse_concentration", "parse_volume", "save_preset", "solve", "tableau", "__version__",
+    "CapacityCurve", "Curve", "CurveError", "EquivalencePoint", "TitrationCurve", "buffer_capacity",
+    "buffer_capacity_at", "dilution", "sweep", "titration",
+    "Recipe", "RecipeError", "design_buffer", "suggest_systems",
 ]

@@ -37,6 +37,7 @@ import numpy as np
 from scipy.optimize import brentq
 
 from ._solver import solve
+from .curves import buffer_capacity_at as buffer_capacity  # one definition of β for the tool
 from .errors import ChemError
 from .library import Library, load_library
 from .model import AcidBaseSystem, Equilibrium, Ingredient, Mixture, Notice, Reagent, format_molar
@@ -239,33 +240,6 @@ class Suggestion:
 # --------------------------------------------------------------------------
 # helpers
 # --------------------------------------------------------------------------
-
-def buffer_capacity(eq: Equilibrium) -> float:
-    """Differential buffer capacity β = dC_base/dpH of a solved mixture, mol/L per pH.
-
-    β = ln 10 ([H+] + [OH-] + Σ_s C_s var_s), where var_s is the variance of
-    the number of bound protons over the species of system ``s`` (van Slyke's
-    capacity, activity coefficients held at their solved values).
-
-    Parameters
-    ----------
-    eq : Equilibrium
-        A solved mixture.
-
-    Returns
-    -------
-    float
-        Strong base (mol/L) per unit rise of pH.
-    """
-    water_terms = sum(s.conc for s in eq.species if s.system == "water")
-    systems = 0.0
-    for name, total in eq.systems:
-        sp = eq.species_of(name)
-        mean = math.fsum(s.fraction * s.protons for s in sp)
-        mean2 = math.fsum(s.fraction * s.protons * s.protons for s in sp)
-        systems += total * max(mean2 - mean * mean, 0.0)
-    return math.log(10.0) * (water_terms + systems)
-
 
 def proton_level(reagent: Reagent) -> float:
     """Dissociable protons plus strong-acid equivalents per unit of the reagent's system."""
