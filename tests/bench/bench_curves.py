@@ -13,29 +13,17 @@ dilution, and a 400-point buffer-capacity curve.
 
 from __future__ import annotations
 
-import statistics
 import sys
-import time
 from pathlib import Path
 
 import numpy as np
 
 sys.path.insert(0, str(Path(__file__).resolve().parent))
 
-from bench_solve import ten_system_mixture  # noqa: E402
+from bench_solve import median_ms, ten_system_mixture  # noqa: E402
 
 from chem import load_library, solve  # noqa: E402
 from chem.curves import buffer_capacity, dilution, sweep, titration  # noqa: E402
-
-
-def median_ms(fn, repeat: int) -> float:
-    fn()
-    times = []
-    for _ in range(repeat):
-        t0 = time.perf_counter()
-        fn()
-        times.append(time.perf_counter() - t0)
-    return statistics.median(times) * 1e3
 
 
 def main() -> None:

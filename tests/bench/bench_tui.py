@@ -119,9 +119,13 @@ def startup_tmux(trials: int, data_dir: str) -> list[float]:
 # -- keystroke latency ---------------------------------------------------------------------------
 
 class TimedExplorer(ExplorerApp):
-    """The explorer, timestamping composited frames and the arrival of finished plots."""
+    """The explorer, timestamping composited frames and the arrival of finished plots.
+
+    Each one gets a data folder of its own, so no autosave of an earlier run asks to be restored.
+    """
 
     def __init__(self, mixture: chem.Mixture) -> None:
+        os.environ["PROTOMIX_DATA_DIR"] = tempfile.mkdtemp(prefix="protomix-bench-")
         super().__init__(mixture)
         self.frames: list[float] = []
         self.plotted: dict[int, float] = {}

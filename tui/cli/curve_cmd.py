@@ -210,17 +210,22 @@ def _titration(args, mixture, progress) -> _Result:
                    not_converged=int((~curve.converged).sum()))
 
 
-def _capacity(args, mixture, progress) -> _Result:
+def _ph_grid(args):
+    """The pH grid of --from/--to/--points for the pH-axis kinds (default 0..14)."""
     import numpy as np
-
-    from chem import format_molar, solve
-    from chem.curves import buffer_capacity, buffer_capacity_at
 
     lo = _number(args.start, "--from", "pH", 0.0)
     hi = _number(args.stop, "--to", "pH", 14.0)
     if not hi > lo:
         _fail(f"--from must be below --to (got {lo:g} and {hi:g})")
-    grid = np.linspace(lo, hi, args.points or _DEFAULT_POINTS["capacity"])
+    return np.linspace(lo, hi, args.points or _DEFAULT_POINTS[args.kind])
+
+
+def _capacity(args, mixture, progress) -> _Result:
+    from chem import format_molar, solve
+    from chem.curves import buffer_capacity, buffer_capacity_at
+
+    grid = _ph_grid(args)
     cap = buffer_capacity(mixture, grid, progress=progress)
     eq = solve(mixture)
     beta = buffer_capacity_at(eq)
@@ -228,7 +233,7 @@ def _capacity(args, mixture, progress) -> _Result:
               "ionic_strength_M": cap.ionic_strength}
     notes = [f"buffer capacity at the mixture's pH {eq.pH:.3f}: {format_molar(beta)}/pH",
              "added_base_M: strong base (negative: acid) that brings the mixture to each pH"]
-    marks = [eq.pH] if lo <= eq.pH <= hi else []
+    marks = [eq.pH] if grid[0] <= eq.pH <= grid[-1] else []
     return _Result("capacity", "pH", cap.pH, series, ["beta_M_per_pH"], "β (mol/L per pH)", "pH", marks=marks,
                    notes=notes, not_converged=int((~cap.converged).sum()))
 
@@ -281,17 +286,11 @@ def _sweep(args, mixture, progress) -> _Result:
 
 
 def _diagram(args, mixture, progress) -> _Result:
-    import numpy as np
-
     from chem import solve
     from chem.diagrams import distribution, log_concentrations
 
-    lo = _number(args.start, "--from", "pH", 0.0)
-    hi = _number(args.stop, "--to", "pH", 14.0)
-    if not hi > lo:
-        _fail(f"--from must be below --to (got {lo:g} and {hi:g})")
+    grid = _ph_grid(args)
     eq = solve(mixture)
-    grid = np.linspace(lo, hi, args.points or _DEFAULT_POINTS[args.kind])
     if args.kind == "distribution":
         diagram = distribution(mixture, grid, ionic_strength=eq.ionic_strength)
         ylabel = "fraction"
@@ -301,7 +300,7 @@ def _diagram(args, mixture, progress) -> _Result:
     names = _species_list(args, tuple(diagram.series)) if args.species else list(diagram.series)
     series = {"pH": diagram.ph, **{n: diagram.series[n] for n in names}}
     notes = [f"at the mixture's ionic strength {eq.ionic_strength:.4g} M; the mixture's pH is {eq.pH:.3f}"]
-    marks = [eq.pH] if lo <= eq.pH <= hi else []
+    marks = [eq.pH] if grid[0] <= eq.pH <= grid[-1] else []
     return _Result(args.kind, "pH", diagram.ph, series, names, ylabel, "pH", marks=marks, notes=notes)
 
 
