@@ -9,16 +9,19 @@ newest is shown. Widgets draw; only :mod:`chem` computes.
 
 from __future__ import annotations
 
+import gc
 import sys
 from dataclasses import dataclass, replace
 from pathlib import Path
 from typing import Iterable
 
+from rich.style import Style
+
 from textual import events, on, work
 from textual.app import App, ComposeResult, SystemCommand
 from textual.binding import Binding
 from textual.containers import Horizontal
-from textual.reactive import reactive
+from textual.reactive import var
 from textual.screen import Screen
 from textual.theme import Theme
 from textual.widgets import Footer
@@ -30,7 +33,7 @@ from tui import storage
 from tui.messages import Plotted, Solved
 from tui.widgets.flask_list import FlaskList
 from tui.widgets.notice_bar import NoticeBar
-from tui.widgets.plot_area import PlotArea
+from tui.widgets.plot_area import PlotArea, prepare
 from tui.widgets.plot_kinds import PLOT_KINDS, PlotRequest, PlotStyle, build_plot, locale_is_utf8, plot_kind
 from tui.widgets.readout import Readout
 from tui.widgets.species_table import SpeciesTable
@@ -110,15 +113,15 @@ class ExplorerApp(App[int]):
     TITLE = "protomix"
     BINDINGS = _bindings()
 
-    mixture: reactive[chem.Mixture | None] = reactive(None, init=False)
+    mixture: var[chem.Mixture | None] = var(None, init=False)
     """The mixture in the flask. Replaced by each edit, never mutated."""
-    result: reactive[chem.Equilibrium | None] = reactive(None, init=False)
+    result: var[chem.Equilibrium | None] = var(None, init=False)
     """The solved state of :attr:`mixture` (or of its predecessor while a solve runs)."""
-    pinned: reactive[chem.Equilibrium | None] = reactive(None, init=False)
+    pinned: var[chem.Equilibrium | None] = var(None, init=False)
     """The state changes are shown against, or None."""
-    plot_kind: reactive[str] = reactive(PLOT_KINDS[0].id, init=False)
+    plot_kind: var[str] = var(PLOT_KINDS[0].id, init=False)
     """Id of the plot on display."""
-    plot_all: reactive[bool] = reactive(False, init=False)
+    plot_all: var[bool] = var(False, init=False)
     """Plot every system (True) or only the selected ingredient's (False)."""
 
     def __init__(self, mixture: chem.Mixture, *, source: str = "", preset_name: str = "") -> None:
@@ -142,6 +145,7 @@ class ExplorerApp(App[int]):
         self._redo: list[tuple[chem.Mixture, str]] = []
         self._generation = 0
         self._autosave_on = False
+        self._enabled: tuple[bool, ...] = ()
         self._utf8 = locale_is_utf8()
 
     # -- layout ------------------------------------------------------------------------------
@@ -164,6 +168,9 @@ class ExplorerApp(App[int]):
         self.mixture = self._start
         self.query_one(FlaskList).focus()
         self._offer_restore()
+        # Everything built so far lives as long as the app: keep it out of the garbage collector's
+        # sweeps, which otherwise add tens of ms to an occasional keystroke.
+        self.call_after_refresh(gc.freeze)
 
     def on_resize(self, event: events.Resize) -> None:
         main = self.screen_stack[0]
@@ -184,7 +191,7 @@ class ExplorerApp(App[int]):
         self._recompute()
         if self._autosave_on:
             self._autosave(mixture)
-        self.refresh_bindings()
+        self._update_keys()
 
     def watch_pinned(self, pinned: chem.Equilibrium | None) -> None:
         self.query_one(TitleBar).pinned = pinned is not None
@@ -236,11 +243,12 @@ class ExplorerApp(App[int]):
             return
         self._generation += 1
         known = self.result if self.result is not None and self.result.mixture == self.mixture else None
-        self._compute(self._generation, self.mixture, known, self._plot_request())
+        self._compute(self._generation, self.mixture, known, self._plot_request(),
+                      self.query_one(PlotArea).rich_style)
 
     @work(thread=True, exclusive=True, group="compute", exit_on_error=False, description="solve and plot")
     def _compute(self, generation: int, mixture: chem.Mixture, known: chem.Equilibrium | None,
-                 request: PlotRequest | None) -> None:
+                 request: PlotRequest | None, base: Style) -> None:
         worker = get_current_worker()
         result = known if known is not None else chem.solve(mixture)
         if worker.is_cancelled:
@@ -249,7 +257,7 @@ class ExplorerApp(App[int]):
             self.post_message(Solved(generation, result))
         if request is None:
             return
-        image = build_plot(result, request)
+        image = prepare(build_plot(result, request), request.width, base)
         if not worker.is_cancelled:
             self.post_message(Plotted(generation, image, self._plot_title(request)))
 
@@ -257,7 +265,7 @@ class ExplorerApp(App[int]):
     def _show_result(self, message: Solved) -> None:
         if message.generation == self._generation:
             self.result = message.result
-            self.refresh_bindings()
+            self._update_keys()
 
     @on(Plotted)
     def _show_plot(self, message: Plotted) -> None:
@@ -266,13 +274,16 @@ class ExplorerApp(App[int]):
 
     @on(PlotArea.Resized)
     def _plot_resized(self) -> None:
-        self._recompute()
+        if self.query_one(PlotArea).image.strips:
+            self._recompute()
+        else:                                           # the first plot waits for the first frame (pH first)
+            self.call_after_refresh(self._recompute)
 
     @on(FlaskList.Selected)
     def _selection_moved(self) -> None:
         if not self.plot_all:
             self._recompute()
-        self.refresh_bindings()
+        self._update_keys()
 
     @on(Worker.StateChanged)
     def _worker_failed(self, event: Worker.StateChanged) -> None:
@@ -315,6 +326,13 @@ class ExplorerApp(App[int]):
                                 on_escape=False), answer)
 
     # -- actions -----------------------------------------------------------------------------
+    def _update_keys(self) -> None:
+        """Grey out or restore keys in the footer, only when something changed (the footer redraw is costly)."""
+        enabled = (self.selected is not None, bool(self._undo), bool(self._redo), self.result is not None)
+        if enabled != self._enabled:
+            self._enabled = enabled
+            self.refresh_bindings()
+
     def check_action(self, action: str, parameters: tuple[object, ...]) -> bool | None:
         ours = {c.action.split("(")[0] for c in COMMANDS}
         if action not in ours:

@@ -9,10 +9,10 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
-from rich.text import Text
 from textual.message import Message
 
 import chem
+from tui.widgets.plot_area import PlotImage
 
 
 @dataclass
@@ -28,5 +28,5 @@ class Plotted(Message):
     """The plot of request ``generation`` was built, ready to show as it is."""
 
     generation: int
-    image: Text
+    image: PlotImage
     title: str

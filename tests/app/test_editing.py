@@ -120,6 +120,7 @@ async def test_remove_then_undo_and_redo_walk_the_history(acetate_buffer, settle
         await settle(pilot)
         await pilot.press("right")                      # 1: more acetic acid
         nudged = app.mixture
+        assert nudged.ingredients[0].conc == pytest.approx(0.05 * NUDGE_FACTORS[0])
         await pilot.press("x")                          # 2: remove it
         assert [i.reagent.name for i in app.mixture.ingredients] == ["sodium acetate"]
         await pilot.press("u")
@@ -143,6 +144,7 @@ async def test_an_edit_after_undo_drops_the_redo_steps(acetate_buffer):
     async with app.run_test(size=(80, 24)) as pilot:
         await pilot.press("right", "u", "t")
         after = app.mixture
+        assert after.temperature_c == 26.0 and after.ingredients == acetate_buffer.ingredients
         await pilot.press("r")
         assert app.mixture == after
 

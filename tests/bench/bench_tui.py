@@ -146,7 +146,7 @@ async def _frame_after(app: TimedExplorer, t: float, timeout: float = 2.0) -> fl
         later = [f for f in app.frames if f > t]
         if later:
             return later[0]
-        await asyncio.sleep(0.001)
+        await asyncio.sleep(0.01)
     raise TimeoutError("no frame")
 
 
@@ -157,7 +157,7 @@ async def _settled(app: TimedExplorer, generation: int, timeout: float = 3.0) ->
         shown = app.plotted.get(app._generation) if app._generation >= generation else None
         if shown is not None:
             return await _frame_after(app, shown)
-        await asyncio.sleep(0.001)
+        await asyncio.sleep(0.01)
     raise TimeoutError("the plot of the last request never arrived")
 
 

@@ -60,6 +60,7 @@ class CustomSpeciesForm(ModalScreen["chem.Ingredient | None"]):
     """
 
     BINDINGS = [Binding("escape", "cancel", "Close", tooltip="Close without adding")]
+    AUTO_FOCUS = "#custom-name"
 
     FIELDS = (
         ("name", "name", "e.g. compound 7 hydrochloride"),
@@ -88,14 +89,11 @@ class CustomSpeciesForm(ModalScreen["chem.Ingredient | None"]):
                 for key, label, hint in self.FIELDS:
                     yield Label(label, classes="field-label")
                     if key == "amount":
-                        yield AmountInput("", id="custom-amount", compact=False)
+                        yield AmountInput("", id="custom-amount")
                     else:
-                        yield Input(placeholder=hint, id=f"custom-{key}")
+                        yield Input(placeholder=hint, id=f"custom-{key}", compact=True)
             yield Label("", id="custom-error", classes="dialog-error")
             yield Label("tab next field · enter add · esc close", classes="dialog-hint")
-
-    def on_mount(self) -> None:
-        self.query_one("#custom-name", Input).focus()
 
     def _value(self, key: str) -> str:
         return self.query_one(f"#custom-{key}", Input).value

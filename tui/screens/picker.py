@@ -30,6 +30,8 @@ class PickerScreen(ModalScreen[T], Generic[T]):
         Binding("pageup", "move(-8)", "Page up", show=False),
     ]
 
+    AUTO_FOCUS = "#picker-query"
+
     heading = ""
     placeholder = "type to filter"
 
@@ -45,9 +47,15 @@ class PickerScreen(ModalScreen[T], Generic[T]):
         """Widgets under the list (none by default)."""
         yield from ()
 
+    def __init__(self) -> None:
+        super().__init__()
+        self._query = ""
+        """What is typed in the filter."""
+        self._shown: str | None = None
+        """The filter the list was last filled for."""
+
     def on_mount(self) -> None:
         self.refill("")
-        self.query_one("#picker-query", Input).focus()
 
     def options(self, query: str) -> list[Option]:
         """The options matching ``query``, best first."""
@@ -58,6 +66,7 @@ class PickerScreen(ModalScreen[T], Generic[T]):
         raise NotImplementedError
 
     def refill(self, query: str) -> None:
+        self._shown = query
         listing = self.query_one("#picker-list", OptionList)
         found = self.options(query)
         listing.set_options(found)
@@ -68,10 +77,19 @@ class PickerScreen(ModalScreen[T], Generic[T]):
 
     @on(Input.Changed, "#picker-query")
     def _filter(self, event: Input.Changed) -> None:
-        self.refill(event.value)
+        # Refill after the next frame, so the typed character shows at once; a newer keystroke
+        # makes an older refill moot.
+        self._query = event.value
+        self.call_after_refresh(self._refill_latest, event.value)
+
+    def _refill_latest(self, query: str) -> None:
+        if query == self._query:
+            self.refill(query)
 
     @on(Input.Submitted, "#picker-query")
     def _pick_highlighted(self) -> None:
+        if self._shown != self._query:                 # enter came before the list caught up
+            self.refill(self._query)
         listing = self.query_one("#picker-list", OptionList)
         if listing.highlighted is not None:
             option = listing.get_option_at_index(listing.highlighted)

@@ -26,7 +26,8 @@ class PresetPicker(PickerScreen["PresetEntry | None"]):
             if q and q not in entry.title.casefold() and q not in entry.name.casefold():
                 continue
             origin = ("shipped", "$secondary") if entry.shipped else ("saved", "$success")
-            parts: list[str | tuple[str, str]] = [(entry.title, "bold"), "  ", origin, "  ", (entry.path.name, "dim")]
+            parts: list[str | tuple[str, str]] = [(entry.title, "bold"), "\n  ", origin, " · ",
+                                                  (entry.path.name, "dim")]
             if entry.problem:
                 parts += ["\n  ", (f"cannot open: {entry.problem}", "$error")]
             out.append(Option(Content.assemble(*parts), id=key, disabled=entry.problem is not None))

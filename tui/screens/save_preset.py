@@ -28,6 +28,7 @@ class SavePreset(ModalScreen["SaveRequest | None"]):
     """Asks for a preset name (and title); confirms before replacing an existing preset."""
 
     BINDINGS = [Binding("escape", "cancel", "Close", tooltip="Close without saving")]
+    AUTO_FOCUS = "#save-name"
 
     def __init__(self, name: str, title: str) -> None:
         super().__init__()
@@ -44,9 +45,6 @@ class SavePreset(ModalScreen["SaveRequest | None"]):
             yield Label("", id="save-error", classes="dialog-error")
             yield Label(f"folder: {storage.presets_dir()}", classes="dialog-hint")
             yield Label("enter save · tab next field · esc close", classes="dialog-hint")
-
-    def on_mount(self) -> None:
-        self.query_one("#save-name", Input).focus()
 
     @on(Input.Changed, "#save-name")
     def _check_name(self, event: Input.Changed) -> None:

@@ -9,7 +9,7 @@ from textual.app import ComposeResult
 from textual.binding import Binding
 from textual.containers import Horizontal, Vertical, VerticalScroll
 from textual.message import Message
-from textual.reactive import reactive
+from textual.reactive import var
 from textual.widgets import Input, Label
 
 import chem
@@ -22,19 +22,25 @@ class _FlaskRow(Vertical):
     def __init__(self, ingredient: chem.Ingredient) -> None:
         super().__init__(classes="flask-row")
         self.ingredient = ingredient
+        self.name_label = Label(ingredient.reagent.name, classes="flask-name")
+        self.amount = Label(ingredient.label, classes="flask-amount")
 
     def compose(self) -> ComposeResult:
         with Horizontal(classes="flask-line"):
-            yield Label(self.ingredient.reagent.name, classes="flask-name")
-            yield Label(self.ingredient.label, classes="flask-amount")
+            yield self.name_label
+            yield self.amount
         yield Label("", classes="flask-error")
+
+    def fit_amount(self, width: int) -> None:
+        """Give the amount column ``width`` cells."""
+        if self.amount.styles.width is None or self.amount.styles.width.value != width:
+            self.amount.styles.width = width
 
     def show(self, ingredient: chem.Ingredient) -> None:
         """Display ``ingredient`` (same row, new amount or reagent)."""
         self.ingredient = ingredient
-        if self.is_mounted and self.children:
-            self.query_one(".flask-name", Label).update(ingredient.reagent.name)
-            self.query_one(".flask-amount", Label).update(ingredient.label)
+        self.name_label.update(ingredient.reagent.name, layout=False)
+        self.amount.update(ingredient.label, layout=False)
 
     @property
     def editor(self) -> AmountInput | None:
@@ -51,6 +57,8 @@ class _FlaskRow(Vertical):
 
     def end_edit(self) -> None:
         """Remove the entry and any error; show the amount again."""
+        if not self.has_class("-editing"):
+            return
         self.remove_class("-editing")
         self.show_error(None)
         if self.editor is not None:
@@ -87,9 +95,9 @@ class FlaskList(VerticalScroll, can_focus=True):
         Binding("pagedown", "page_down", show=False),
     ]
 
-    mixture: reactive[chem.Mixture | None] = reactive(None, init=False)
+    mixture: var[chem.Mixture | None] = var(None, init=False)
     """The mixture shown. Replaced, never mutated."""
-    cursor: reactive[int] = reactive(0, init=False)
+    cursor: var[int] = var(0, init=False)
     """Index of the selected ingredient."""
 
     class Selected(Message):
@@ -128,13 +136,15 @@ class FlaskList(VerticalScroll, can_focus=True):
             row.end_edit()
         if len(rows) == len(ingredients):
             for row, ingredient in zip(rows, ingredients):
-                row.show(ingredient)
+                if row.ingredient != ingredient:
+                    row.show(ingredient)
         else:
             for row in rows:
                 row.remove()
             self._rows = [_FlaskRow(ing) for ing in ingredients]
             self.mount_all(self._rows)
         self.query_one("#flask-empty").display = not ingredients
+        self._fit_amounts(ingredients)
         self.cursor = max(0, min(self.cursor, len(ingredients) - 1))
         self.call_after_refresh(self._mark_cursor)
 
@@ -142,11 +152,18 @@ class FlaskList(VerticalScroll, can_focus=True):
         self._mark_cursor()
         self.post_message(self.Selected())
 
+    def _fit_amounts(self, ingredients) -> None:
+        """Make the amount column as wide as its widest amount (a relayout only when that changes)."""
+        width = max((len(i.label) for i in ingredients), default=0) + 1
+        for row in self.rows:
+            row.fit_amount(width)
+
     def _mark_cursor(self) -> None:
         for i, row in enumerate(self.rows):
-            row.set_class(i == self.cursor, "-cursor")
-            if i == self.cursor:
-                self.scroll_to_widget(row, animate=False)
+            if row.has_class("-cursor") != (i == self.cursor):
+                row.set_class(i == self.cursor, "-cursor")
+                if i == self.cursor:
+                    self.scroll_to_widget(row, animate=False)
 
     def select(self, index: int) -> None:
         """Put the cursor on ingredient ``index`` (negative counts from the end)."""

@@ -3,30 +3,40 @@
 from __future__ import annotations
 
 from textual.content import Content
-from textual.reactive import reactive
+from textual.reactive import var
 from textual.widgets import Static
 
 import chem
 
 
 class NoticeBar(Static):
-    """One line: the most serious notice, how many more there are, and the key for details."""
+    """One line: how many cautions and warnings there are, the key for details, and the most serious one."""
 
-    result: reactive[chem.Equilibrium | None] = reactive(None, init=False)
+    result: var[chem.Equilibrium | None] = var(None, init=False)
     """The solved mixture whose notices are shown."""
+
+    def __init__(self, *, id: str | None = None) -> None:
+        super().__init__(id=id)
+        self._shown: tuple = ()
 
     def watch_result(self, eq: chem.Equilibrium | None) -> None:
         notices = [] if eq is None else [*eq.cautions, *eq.warnings]
+        shown = (eq is None, tuple(notices))
+        if shown == self._shown:                        # unchanged: spare the repaint
+            return
+        self._shown = shown
         self.set_class(bool(eq and eq.cautions), "-caution")
         self.set_class(bool(eq and not eq.cautions and eq.warnings), "-warning")
         if eq is None:
-            self.update("")
+            self.update("", layout=False)
             return
         if not notices:
-            self.update(Content("✓ no warnings or cautions for this mixture"))
+            self.update(Content("✓ no warnings or cautions for this mixture"), layout=False)
             return
-        first = notices[0]
-        head = "CAUTION" if eq.cautions else "warning"
-        more = f"  (+{len(notices) - 1} more)" if len(notices) > 1 else ""
-        self.update(Content.assemble((f"⚠ {head}: ", "bold"), first.message, (more, "bold"),
-                                     ("  · w: details", "italic")))
+        counts = []
+        if eq.cautions:
+            counts.append(f"{len(eq.cautions)} CAUTION{'S' * (len(eq.cautions) > 1)}")
+        if eq.warnings:
+            counts.append(f"{len(eq.warnings)} warning{'s' * (len(eq.warnings) > 1)}")
+        self.update(Content.assemble((f"⚠ {', '.join(counts)} ", "bold"), ("(w: details) ", "italic"),
+                                     notices[0].message), layout=False)

@@ -2,10 +2,10 @@
 
 A :class:`PlotKind` pairs a title with a function that turns a solved
 :class:`chem.Equilibrium` and a :class:`PlotRequest` (size, system, style)
-into ready-to-show :class:`rich.text.Text`. The functions run in a worker
-thread: building plotext text is pure Python and costs tens of ms, so it must
-stay off the UI thread. New kinds (titration, buffer capacity, ...) are added
-by appending to :data:`PLOT_KINDS`.
+into a :class:`Drawing`: plotext's text plus a legend. The functions run in a
+worker thread: building plotext text is pure Python and costs tens of ms, so it
+must stay off the UI thread. New kinds (titration, buffer capacity, ...) are
+added by appending to :data:`PLOT_KINDS`.
 
 All curve data come from :mod:`chem.diagrams`; this module only draws them.
 """
@@ -13,11 +13,11 @@ All curve data come from :mod:`chem.diagrams`; this module only draws them.
 from __future__ import annotations
 
 import os
+import re
 from dataclasses import dataclass
 from typing import Callable, Mapping, Sequence
 
 import numpy as np
-from rich.text import Text
 
 import chem
 from chem import diagrams
@@ -44,6 +44,8 @@ _BOX_TO_ASCII = str.maketrans({
 
 #: Smallest plot area (cells) worth drawing; below this plotext output is unreadable.
 MIN_WIDTH, MIN_HEIGHT = 30, 8
+
+_SGR = re.compile(r"\x1b\[([0-9;]*)m")
 
 
 def locale_is_utf8(environ: Mapping[str, str] | None = None) -> bool:
@@ -104,6 +106,26 @@ class PlotRequest:
     style: PlotStyle
 
 
+LegendLine = tuple[tuple[str, "RGB | None"], ...]
+"""One legend line: (text, colour) pieces; colour None means the panel's own text colour."""
+
+
+@dataclass(frozen=True)
+class Drawing:
+    """A finished plot: plotext's output (with its colour codes) and the legend lines under it."""
+
+    canvas: str
+    legend: tuple[LegendLine, ...] = ()
+    note: bool = False
+    """True when ``canvas`` is a short message instead of a plot (shown dimmed)."""
+
+    @property
+    def plain(self) -> str:
+        """The whole drawing as text without colour codes."""
+        lines = [_SGR.sub("", self.canvas)] + ["".join(piece for piece, _ in line) for line in self.legend]
+        return "\n".join(lines)
+
+
 @dataclass(frozen=True)
 class PlotKind:
     """A plot the chart panel can show."""
@@ -111,7 +133,7 @@ class PlotKind:
     id: str
     title: str
     """Shown in the panel's border, e.g. "fraction vs pH"."""
-    build: Callable[[chem.Equilibrium, PlotRequest], Text]
+    build: Callable[[chem.Equilibrium, PlotRequest], Drawing]
     """Draws the plot for a solved mixture; runs in a worker thread."""
 
 
@@ -158,34 +180,31 @@ def visible_runs(y: np.ndarray, floor: float) -> list[slice]:
     return [slice(max(a - 1, 0), min(b + 1, len(y))) for a, b in zip(edges[::2], edges[1::2])]
 
 
-def _legend(labels: Sequence[str], style: PlotStyle, width: int, max_rows: int) -> Text:
+def _legend(labels: Sequence[str], style: PlotStyle, width: int, max_rows: int) -> tuple[LegendLine, ...]:
     """Series names with their symbols, wrapped to ``width``, at most ``max_rows`` lines."""
-    lines: list[Text] = [Text()]
+    lines: list[list[tuple[str, RGB | None]]] = [[]]
+    used = 0
     for i, label in enumerate(labels):
-        entry = Text()
-        entry.append(style.legend_symbol(i), style=_rich_color(style.color(i)))
-        entry.append(f" {label}")
-        line = lines[-1]
+        entry = [(style.legend_symbol(i), style.color(i)), (f" {label}", None)]
+        size = len(entry[0][0]) + len(entry[1][0])
         last_row = len(lines) == max_rows
         room = width - (len(f"  +{len(labels)} more") if last_row and i < len(labels) - 1 else 0)
-        if line.cell_len and line.cell_len + 2 + entry.cell_len > room:
+        if used and used + 2 + size > room:
             if last_row:
-                line.append(f"  +{len(labels) - i} more", style="dim")
+                lines[-1].append((f"  +{len(labels) - i} more", None))
                 break
-            lines.append(Text())
-            line = lines[-1]
-        if line.cell_len:
-            line.append("  ")
-        line.append_text(entry)
-    return Text("\n").join(lines)
-
-
-def _rich_color(rgb: RGB | None) -> str:
-    return "" if rgb is None else f"rgb({rgb[0]},{rgb[1]},{rgb[2]})"
+            lines.append([])
+            used = 0
+        if used:
+            lines[-1].append(("  ", None))
+            used += 2
+        lines[-1] += entry
+        used += size
+    return tuple(tuple(line) for line in lines)
 
 
 def draw(x: np.ndarray, curves: Sequence[tuple[str, np.ndarray]], ph: float, request: PlotRequest,
-         *, ylabel: str, ylim: tuple[float, float], yticks: Sequence[float]) -> Text:
+         *, ylabel: str, ylim: tuple[float, float], yticks: Sequence[float]) -> Drawing:
     """Draw curves over pH with a marker at the current ``ph``; legend below the axes.
 
     Args:
@@ -198,13 +217,13 @@ def draw(x: np.ndarray, curves: Sequence[tuple[str, np.ndarray]], ph: float, req
         yticks: Tick positions on the y axis.
 
     Returns:
-        The plot and its legend as one styled text block of ``request`` size at most.
+        The plot and its legend, together at most ``request`` in size.
     """
     from plotext._figure import _figure_class  # noqa: PLC0415 - deferred: 35 ms, only needed in the worker
 
     style, width = request.style, request.width
-    legend = _legend([label for label, _ in curves], style, width, max(1, request.height // 6))
-    height = request.height - len(legend.split("\n")) if curves else request.height
+    legend = _legend([label for label, _ in curves], style, width, max(1, request.height // 6)) if curves else ()
+    height = request.height - len(legend)
     fig = _figure_class()
     fig.plotsize(width, height)
     fig._set_size(width, height)
@@ -231,11 +250,7 @@ def draw(x: np.ndarray, curves: Sequence[tuple[str, np.ndarray]], ph: float, req
     out = fig.build().rstrip("\n")
     if style.ascii:
         out = out.translate(_BOX_TO_ASCII)
-    text = Text.from_ansi(out)
-    if curves:
-        text.append("\n")
-        text.append_text(legend)
-    return text
+    return Drawing(out, legend)
 
 
 def _selected_systems(result: chem.Equilibrium, request: PlotRequest) -> tuple[str, ...] | None:
@@ -243,20 +258,20 @@ def _selected_systems(result: chem.Equilibrium, request: PlotRequest) -> tuple[s
     return (request.system,) if request.system in names else None
 
 
-def build_distribution(result: chem.Equilibrium, request: PlotRequest) -> Text:
+def build_distribution(result: chem.Equilibrium, request: PlotRequest) -> Drawing:
     """Fraction of each species of each (or the selected) system vs pH."""
     ph = diagrams.default_grid(grid_points(request.width))
     diagram = diagrams.distribution(result.mixture, ph, ionic_strength=result.ionic_strength,
                                     systems=_selected_systems(result, request))
     if not diagram.series:
-        return Text("No acid–base system in the flask: nothing to distribute.\n"
-                    "Add an acid, a base or a buffer salt (n).", style="dim")
+        return Drawing("No acid–base system in the flask: nothing to distribute.\n"
+                       "Add an acid, a base or a buffer salt (n).", note=True)
     curves = list(diagram.series.items())
     return draw(diagram.ph, curves, result.pH, request, ylabel="fraction", ylim=(0.0, 1.0),
                 yticks=(0.0, 0.25, 0.5, 0.75, 1.0))
 
 
-def build_log_concentration(result: chem.Equilibrium, request: PlotRequest) -> Text:
+def build_log_concentration(result: chem.Equilibrium, request: PlotRequest) -> Drawing:
     """log10 of each species' concentration vs pH, with H+ and OH-."""
     ph = diagrams.default_grid(grid_points(request.width))
     diagram = diagrams.log_concentrations(result.mixture, ph, ionic_strength=result.ionic_strength)
@@ -288,8 +303,8 @@ def plot_kind(kind_id: str) -> PlotKind:
     raise KeyError(kind_id)
 
 
-def build_plot(result: chem.Equilibrium, request: PlotRequest) -> Text:
+def build_plot(result: chem.Equilibrium, request: PlotRequest) -> Drawing:
     """The plot for ``request``, or a short note when the area is too small to draw in."""
     if request.width < MIN_WIDTH or request.height < MIN_HEIGHT:
-        return Text(f"Enlarge the window to see the plot (needs {MIN_WIDTH}x{MIN_HEIGHT} cells).", style="dim")
+        return Drawing(f"Enlarge the window to see the plot (needs {MIN_WIDTH}x{MIN_HEIGHT} cells).", note=True)
     return plot_kind(request.kind).build(result, request)

@@ -5,7 +5,7 @@ from __future__ import annotations
 from textual.app import ComposeResult
 from textual.containers import Horizontal, Vertical
 from textual.content import Content
-from textual.reactive import reactive
+from textual.reactive import var
 from textual.widgets import Digits, Label, Static
 
 import chem
@@ -20,12 +20,13 @@ def signed(value: float, digits: int) -> str:
 class Readout(Vertical):
     """pH (large), pOH, temperature, ionic strength, activity model, convergence and notices.
 
-    While a state is pinned, the change of pH against it is shown too.
+    While a state is pinned, the change of pH against it is shown too. Where there is
+    room, pKw, the remaining charge-balance error and each system's total follow.
     """
 
-    result: reactive[chem.Equilibrium | None] = reactive(None, init=False)
+    result: var[chem.Equilibrium | None] = var(None, init=False)
     """The solved mixture on display."""
-    pinned: reactive[chem.Equilibrium | None] = reactive(None, init=False)
+    pinned: var[chem.Equilibrium | None] = var(None, init=False)
     """The state changes are measured against, or None."""
 
     def compose(self) -> ComposeResult:
@@ -35,6 +36,7 @@ class Readout(Vertical):
             yield Static("", id="ph-side")
         yield Static("solving…", id="conditions")
         yield Static("", id="solve-state")
+        yield Static("", id="readout-more")
 
     def watch_result(self) -> None:
         self._redraw()
@@ -42,18 +44,25 @@ class Readout(Vertical):
     def watch_pinned(self) -> None:
         self._redraw()
 
+    def _show(self, selector: str, content: Content) -> None:
+        """Update one line of the readout, unless it reads the same (saves a repaint)."""
+        widget = self.query_one(selector, Static)
+        if widget.visual != content:
+            widget.update(content, layout=False)
+
     def _redraw(self) -> None:
         eq = self.result
         if eq is None:
             return
-        self.query_one("#ph-digits", Digits).update(f"{eq.pH:.2f}")
+        digits = self.query_one("#ph-digits", Digits)
+        if digits.value != f"{eq.pH:.2f}":
+            digits.update(f"{eq.pH:.2f}")
         parts: list[str | tuple[str, str]] = [(f"pH  {eq.pH:.3f}", "bold"), f"\npOH {eq.pOH:.3f}"]
         if self.pinned is not None:
             parts.append((f"\nΔpH {signed(eq.pH - self.pinned.pH, 3)}", "bold $accent"))
-        self.query_one("#ph-side", Static).update(Content.assemble(*parts))
+        self._show("#ph-side", Content.assemble(*parts))
         mix = eq.mixture
-        self.query_one("#conditions", Static).update(
-            Content(f"{mix.temperature_c:.1f} °C   I {eq.ionic_strength:.3g} M   {mix.activity}"))
+        self._show("#conditions", Content(f"{mix.temperature_c:.1f} °C   I {eq.ionic_strength:.3g} M   {mix.activity}"))
         state: list[str | tuple[str, str]] = [
             ("✓ converged", "$success") if eq.converged else ("✗ NOT converged", "bold $error")]
         if eq.cautions:
@@ -61,4 +70,8 @@ class Readout(Vertical):
             state += ["   ", (f"{n} caution{'s' * (n > 1)}", "bold $error")]
         n = len(eq.warnings)
         state += ["   ", (f"{n} warning{'s' * (n != 1)}", "$warning" if n else "dim")]
-        self.query_one("#solve-state", Static).update(Content.assemble(*state))
+        self._show("#solve-state", Content.assemble(*state))
+        totals = ", ".join(f"{name} {chem.format_molar(total)}" for name, total in eq.systems) or "none"
+        self._show("#readout-more", Content.assemble(
+            ("pKw ", "dim"), f"{eq.pKw:.3f}", ("   balance error ", "dim"), f"{abs(eq.balance_error):.1e} M",
+            ("\nsystems ", "dim"), totals))

@@ -1,83 +1,128 @@
-"""The species panel: every species of the solved mixture, with the change against a pinned state."""
+"""The species panel: every species of the solved mixture, with the change against a pinned state.
+
+Drawn line by line from plain text rather than as a data grid: it is redrawn
+after every edit, and painting prepared lines is several times cheaper than
+laying out a grid or styled text.
+"""
 
 from __future__ import annotations
 
 import math
 
-from rich.text import Text
-from textual.reactive import reactive
-from textual.widgets import DataTable
+from rich.segment import Segment
+from textual.app import ComposeResult
+from textual.containers import Vertical, VerticalScroll
+from textual.geometry import Region
+from textual.reactive import var
+from textual.strip import Strip
+from textual.widget import Widget
 
 import chem
 from tui.widgets.readout import signed
 
-_COLUMNS = ("species", "C / M", "log C", "α", "γ")
-_PINNED_COLUMN = "Δlog C"
-
-
-def _num(text: str, style: str = "") -> Text:
-    """A right-aligned number with one space before it (the table has no cell padding, to fit 80 columns)."""
-    return Text(f" {text}", style=style, justify="right")
+#: (heading, width) of each column after the species name; numbers are right-aligned.
+COLUMNS = (("C / M", 9), ("log C", 6), ("α", 6), ("γ", 6))
+DELTA_COLUMN = ("Δlog C", 7)
 
 
 def _log_c(value: float) -> str:
     return f"{value:.2f}" if math.isfinite(value) else "-inf"
 
 
-class SpeciesTable(DataTable):
-    """Name, concentration, log C, fraction of its system and activity coefficient of each species."""
+def _delta(now: chem.Species, before: chem.Species | None) -> str:
+    if before is None:
+        return "new"
+    if math.isfinite(now.log_c) and math.isfinite(before.log_c):
+        return signed(now.log_c - before.log_c, 2)
+    return "—"
 
-    result: reactive[chem.Equilibrium | None] = reactive(None, init=False)
+
+def species_rows(eq: chem.Equilibrium, pinned: chem.Equilibrium | None) -> tuple[str, list[tuple[str, str]]]:
+    """The heading and, per species, (numbers part, system) as fixed-width text."""
+    columns = COLUMNS + ((DELTA_COLUMN,) if pinned is not None else ())
+    name_width = max(7, *(len(s.name) for s in eq.species))
+    heading = f"{'species':<{name_width}}" + "".join(f"{t:>{w}}" for t, w in columns) + "  system"
+    before = {(s.system, s.name): s for s in pinned.species} if pinned is not None else None
+    rows = []
+    for sp in eq.species:
+        cells = [f"{sp.conc:.2e}", _log_c(sp.log_c),
+                 "" if sp.fraction is None else f"{sp.fraction:.3f}", f"{sp.activity_coefficient:.3f}"]
+        if before is not None:
+            cells.append(_delta(sp, before.get((sp.system, sp.name))))
+        rows.append((f"{sp.name:<{name_width}}" + "".join(f"{c:>{w}}" for c, (_, w) in zip(cells, columns)),
+                     f"  {sp.system}"))
+    return heading, rows
+
+
+class SpeciesLines(Widget):
+    """Part of :class:`SpeciesTable`: paints rows of text, every other one on a tinted background, the system name dimmed."""
+
+    COMPONENT_CLASSES = {"lines--stripe", "lines--dim", "lines--head"}
+
+    def __init__(self, *, heading: bool = False, id: str | None = None) -> None:
+        super().__init__(id=id)
+        self.heading = heading
+        self.rows: list[tuple[str, str]] = []
+
+    def show(self, rows: list[tuple[str, str]]) -> None:
+        resized = len(rows) != len(self.rows)
+        self.rows = rows
+        if resized:
+            self.styles.height = len(rows)
+        self.refresh(layout=resized)
+
+    def render_lines(self, crop: Region) -> list[Strip]:
+        base = self.rich_style                          # computed once per paint, not per line
+        self._styles = (base, base + self.get_component_rich_style("lines--stripe"),
+                        base + self.get_component_rich_style("lines--head"),
+                        self.get_component_rich_style("lines--dim"))
+        return super().render_lines(crop)
+
+    def render_line(self, y: int) -> Strip:
+        base, stripe, head, dim = self._styles
+        if y >= len(self.rows):
+            return Strip.blank(self.size.width, base)
+        style = head if self.heading else stripe if y % 2 == 0 else base
+        text, system = self.rows[y]
+        return Strip([Segment(text, style), Segment(system, style + dim)]).crop_extend(0, self.size.width, style)
+
+
+class SpeciesTable(Vertical):
+    """Name, concentration, log C, fraction of its system (α) and activity coefficient (γ) of each species.
+
+    While a state is pinned, a Δlog C column shows the change against it.
+    """
+
+    result: var[chem.Equilibrium | None] = var(None, init=False)
     """The solved mixture on display."""
-    pinned: reactive[chem.Equilibrium | None] = reactive(None, init=False)
+    pinned: var[chem.Equilibrium | None] = var(None, init=False)
     """The state changes are measured against, or None."""
 
-    def __init__(self, *, id: str | None = None) -> None:
-        super().__init__(id=id, cursor_type="row", zebra_stripes=True, cell_padding=0)
-
-    def on_mount(self) -> None:
-        self._set_columns()
-
-    def _set_columns(self) -> None:
-        self.clear(columns=True)
-        self.add_column(_COLUMNS[0], key=_COLUMNS[0])
-        for label in _COLUMNS[1:]:
-            self.add_column(_num(label), key=label)
-        if self.pinned is not None:
-            self.add_column(_num(_PINNED_COLUMN), key=_PINNED_COLUMN)
-        self.add_column("  system", key="system")
-
-    def watch_pinned(self) -> None:
-        self._set_columns()
-        self._fill()
+    def compose(self) -> ComposeResult:
+        yield SpeciesLines(heading=True, id="species-head")
+        with VerticalScroll(id="species-body-scroll"):
+            yield SpeciesLines(id="species-body")
 
     def watch_result(self) -> None:
         self._fill()
 
+    def watch_pinned(self) -> None:
+        self._fill()
+
+    @property
+    def header(self) -> str:
+        """The column headings as plain text."""
+        rows = self.query_one("#species-head", SpeciesLines).rows
+        return rows[0][0] + rows[0][1] if rows else ""
+
+    @property
+    def lines(self) -> list[str]:
+        """The rows as plain text, one per species."""
+        return [a + b for a, b in self.query_one("#species-body", SpeciesLines).rows]
+
     def _fill(self) -> None:
-        eq = self.result
-        if eq is None:
+        if self.result is None:
             return
-        row = self.cursor_row
-        self.clear()
-        before = {(s.system, s.name): s for s in self.pinned.species} if self.pinned is not None else None
-        for sp in eq.species:
-            cells: list[Text | str] = [
-                sp.name,
-                _num(f"{sp.conc:.2e}"),
-                _num(_log_c(sp.log_c)),
-                _num("" if sp.fraction is None else f"{sp.fraction:.3f}"),
-                _num(f"{sp.activity_coefficient:.3f}"),
-            ]
-            if before is not None:
-                old = before.get((sp.system, sp.name))
-                if old is None:
-                    cells.append(_num("new", "italic"))
-                elif math.isfinite(sp.log_c) and math.isfinite(old.log_c):
-                    cells.append(_num(signed(sp.log_c - old.log_c, 2), "bold"))
-                else:
-                    cells.append(_num("—"))
-            cells.append(Text(f"  {sp.system}", style="dim"))
-            self.add_row(*cells, key=f"{sp.system}/{sp.name}")
-        if self.row_count:
-            self.move_cursor(row=min(row, self.row_count - 1), animate=False, scroll=False)
+        heading, rows = species_rows(self.result, self.pinned)
+        self.query_one("#species-head", SpeciesLines).show([(heading, "")])
+        self.query_one("#species-body", SpeciesLines).show(rows)

@@ -3,20 +3,20 @@
 from __future__ import annotations
 
 from textual.content import Content
-from textual.reactive import reactive
+from textual.reactive import var
 from textual.widgets import Static
 
 
 class TitleBar(Static):
     """``protomix ● changed ◆ pinned <title> │ <source>``, the markers only when they apply."""
 
-    heading: reactive[str] = reactive("", init=False)
+    heading: var[str] = var("", init=False)
     """The mixture's title."""
-    source: reactive[str] = reactive("", init=False)
+    source: var[str] = var("", init=False)
     """Where the mixture came from (a preset name, "demo", "restored session")."""
-    dirty: reactive[bool] = reactive(False, init=False)
+    dirty: var[bool] = var(False, init=False)
     """The mixture differs from what was opened or last saved."""
-    pinned: reactive[bool] = reactive(False, init=False)
+    pinned: var[bool] = var(False, init=False)
     """A state is pinned for comparison."""
 
     def on_mount(self) -> None:
@@ -43,4 +43,4 @@ class TitleBar(Static):
         parts += [" ", (self.heading or "untitled mixture", "bold")]
         if self.source:
             parts += ["  │ ", (self.source, "dim")]
-        self.update(Content.assemble(*parts))
+        self.update(Content.assemble(*parts), layout=False)

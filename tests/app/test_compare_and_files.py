@@ -1,0 +1,174 @@
+"""Pinning and deltas, presets (save, open, overwrite), the autosave and quitting, driven by keys."""
+
+from __future__ import annotations
+
+import pytest
+
+import chem
+from tui import storage
+from tui.app import ExplorerApp
+from tui.screens.choice import Choice
+from tui.screens.preset_picker import PresetPicker
+from tui.widgets.readout import Readout
+from tui.widgets.species_table import SpeciesTable
+from tui.widgets.title_bar import TitleBar
+
+
+async def test_pinning_shows_changes_against_the_pinned_state(acetate_buffer, settle, text_of):
+    app = ExplorerApp(acetate_buffer)
+    async with app.run_test(size=(120, 40)) as pilot:
+        await settle(pilot)
+        before = app.result
+        await pilot.press("p")
+        assert app.pinned is before
+        await pilot.press("down", "right", "right")     # more sodium acetate: pH goes up
+        await settle(pilot)
+        after = app.result
+        assert after.pH > before.pH
+        side = text_of(app.query_one("#ph-side"))
+        assert f"ΔpH {after.pH - before.pH:+.3f}" in side
+        table = app.query_one(SpeciesTable)
+        assert "Δlog C" in table.header
+        row = next(line for line in table.lines if line.startswith("CH3COO- "))
+        change = after.get("CH3COO-").log_c - before.get("CH3COO-").log_c
+        assert f"{change:+.2f}" in row
+        assert "pinned" in text_of(app.query_one(TitleBar))
+        await pilot.press("p")                          # unpin: deltas go away
+        assert app.pinned is None
+        assert "Δlog C" not in table.header
+        assert "ΔpH" not in text_of(app.query_one("#ph-side"))
+
+
+async def test_a_species_missing_from_the_pinned_state_is_marked_new(acetate_buffer, settle, library):
+    app = ExplorerApp(acetate_buffer)
+    async with app.run_test(size=(120, 40)) as pilot:
+        await settle(pilot)
+        await pilot.press("p", "n", *"NH4Cl", "enter", "enter")
+        await settle(pilot)
+        lines = app.query_one(SpeciesTable).lines
+        assert any(line.startswith("NH4+ ") and " new" in line for line in lines)
+
+
+async def test_save_then_reopen_gives_back_the_same_mixture(acetate_buffer, settle, data_dir):
+    app = ExplorerApp(acetate_buffer)
+    async with app.run_test(size=(120, 40)) as pilot:
+        await pilot.press("right", "t")                 # make it differ from what was opened
+        edited = app.mixture
+        assert app.dirty
+        await pilot.press("s")
+        await pilot.press("ctrl+u", *"r 1", "enter")
+        await settle(pilot)
+        path = data_dir / "presets" / "r 1.toml"
+        assert path.is_file()
+        assert chem.load_preset(path) == edited
+        assert not app.dirty
+        await pilot.press("x", "x")                     # empty the flask
+        assert app.mixture.ingredients == ()
+        await pilot.press("o", *"r 1")                  # filter by name
+        picker = app.screen
+        assert isinstance(picker, PresetPicker)
+        listing = picker.query_one("#picker-list")
+        assert listing.option_count == 1
+        await pilot.press("enter")
+        await settle(pilot)
+        assert app.mixture == edited
+        assert app.result.pH == pytest.approx(chem.solve(edited).pH, abs=1e-12)
+
+
+async def test_the_preset_list_shows_shipped_presets_by_title():
+    app = ExplorerApp(chem.Mixture())
+    async with app.run_test(size=(120, 40)) as pilot:
+        await pilot.press("o")
+        listing = app.screen.query_one("#picker-list")
+        shown = [str(listing.get_option_at_index(i).prompt) for i in range(listing.option_count)]
+        for path in chem.shipped_presets():
+            title = chem.load_preset(path).title
+            assert any(title in prompt and path.name in prompt for prompt in shown), title
+
+
+async def test_saving_over_an_existing_preset_asks_first(acetate_buffer, settle, data_dir):
+    existing = storage.save_user_preset(chem.Mixture(title="keep me"), "buffer")
+    app = ExplorerApp(acetate_buffer)
+    async with app.run_test(size=(120, 40)) as pilot:
+        await pilot.press("s", "ctrl+u", *"buffer", "enter")
+        assert isinstance(app.screen, Choice)
+        await pilot.press("n")                          # keep the old one
+        await settle(pilot)
+        assert chem.load_preset(existing).title == "keep me"
+        await pilot.press("enter")                      # still in the save form: try again, and replace
+        assert isinstance(app.screen, Choice)
+        await pilot.press("y")
+        await settle(pilot)
+        assert chem.load_preset(existing) == acetate_buffer
+
+
+async def test_a_bad_preset_name_is_refused_in_the_form(acetate_buffer, data_dir):
+    app = ExplorerApp(acetate_buffer)
+    async with app.run_test(size=(120, 40)) as pilot:
+        await pilot.press("s", "ctrl+u", *"../x", "enter")
+        assert "letters, digits" in str(app.screen.query_one("#save-error").render())
+        assert not (data_dir / "presets").exists() or not any((data_dir / "presets").iterdir())
+
+
+async def test_every_edit_is_autosaved_and_offered_back_after_a_dropped_session(acetate_buffer, settle):
+    app = ExplorerApp(acetate_buffer)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await pilot.press("right")
+        await settle(pilot)
+        edited = app.mixture
+        assert storage.read_autosave() == edited
+    # the session ended without quitting (as when a connection drops): the next start offers it back
+    app = ExplorerApp(acetate_buffer)
+    async with app.run_test(size=(80, 24)) as pilot:
+        assert isinstance(app.screen, Choice)
+        await pilot.press("y")
+        await settle(pilot)
+        assert app.mixture == edited
+        assert app.result.mixture == edited
+
+
+async def test_declining_the_restore_discards_the_autosave(acetate_buffer):
+    storage.write_autosave(acetate_buffer.with_temperature(30.0))
+    app = ExplorerApp(acetate_buffer)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await pilot.press("n")
+        assert app.mixture == acetate_buffer
+        assert storage.read_autosave() is None
+
+
+async def test_quit_with_unsaved_changes_asks_and_escape_stays(acetate_buffer):
+    app = ExplorerApp(acetate_buffer)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await pilot.press("right", "q")
+        assert isinstance(app.screen, Choice)
+        await pilot.press("escape")
+        assert app.is_running and app.screen is app.screen_stack[0]
+        await pilot.press("q", "d")
+        await pilot.pause()
+    assert app.return_value == 0
+    assert storage.read_autosave() is None              # a clean quit leaves nothing to restore
+
+
+async def test_quit_without_changes_leaves_at_once(acetate_buffer):
+    app = ExplorerApp(acetate_buffer)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await pilot.press("q")
+        await pilot.pause()
+    assert app.return_value == 0
+
+
+async def test_ctrl_q_quits_too(acetate_buffer):
+    app = ExplorerApp(acetate_buffer)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await pilot.press("ctrl+q")
+        await pilot.pause()
+    assert app.return_value == 0
+
+
+async def test_q_typed_into_an_amount_is_text_not_quit(acetate_buffer):
+    app = ExplorerApp(acetate_buffer)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await pilot.press("enter", "q")
+        assert app.is_running
+        assert app.query_one("#flask").rows[0].editor.value == "q"
+        assert app.query_one(Readout) is not None

@@ -1,0 +1,91 @@
+"""The explorer in a real terminal: tmux at 80x24, keys typed, the pane read back."""
+
+from __future__ import annotations
+
+import re
+import shutil
+import subprocess
+import sys
+import time
+import uuid
+from pathlib import Path
+
+import pytest
+
+import chem
+
+ROOT = Path(__file__).resolve().parents[2]
+
+pytestmark = [pytest.mark.tmux,
+              pytest.mark.skipif(shutil.which("tmux") is None, reason="tmux is not installed")]
+
+
+class Pane:
+    """A detached tmux session on a private server socket."""
+
+    def __init__(self, env: dict[str, str], width: int = 80, height: int = 24) -> None:
+        self.tmux = ["tmux", "-L", f"protomix-test-{uuid.uuid4().hex[:8]}"]
+        extra = [arg for key, value in env.items() for arg in ("-e", f"{key}={value}")]
+        subprocess.run([*self.tmux, "-f", "/dev/null", "new-session", "-d", "-s", "t", "-x", str(width),
+                        "-y", str(height), *extra], check=True)
+
+    def keys(self, *keys: str, literal: bool = False) -> None:
+        subprocess.run([*self.tmux, "send-keys", "-t", "t", *(["-l"] if literal else []), *keys], check=True)
+
+    def text(self) -> str:
+        return subprocess.run([*self.tmux, "capture-pane", "-p", "-t", "t"], capture_output=True, text=True,
+                              check=True).stdout
+
+    def wait_for(self, pattern: str, timeout: float = 10.0) -> re.Match:
+        end = time.monotonic() + timeout
+        while time.monotonic() < end:
+            found = re.search(pattern, self.text())
+            if found:
+                return found
+            time.sleep(0.01)
+        raise AssertionError(f"{pattern!r} did not appear; the pane shows:\n{self.text()}")
+
+    def close(self) -> None:
+        subprocess.run([*self.tmux, "kill-server"], capture_output=True)
+
+
+@pytest.fixture
+def pane(tmp_path):
+    p = Pane({"PROTOMIX_DATA_DIR": str(tmp_path / "data"), "TERM": "xterm-256color", "LANG": "C.UTF-8"})
+    yield p
+    p.close()
+
+
+def test_adding_a_reagent_in_a_real_terminal_changes_the_ph(pane, library):
+    pane.keys(f"cd {ROOT} && {sys.executable} -m tui; echo EXIT=$?", "Enter")
+    demo = chem.demo_mixture()
+    before = chem.solve(demo)
+    pane.wait_for(rf"pH\s+{before.pH:.3f}")
+    for ingredient in demo.ingredients:
+        pane.wait_for(re.escape(ingredient.reagent.name) + r"\s+" + re.escape(ingredient.label))
+    pane.keys("n")
+    pane.wait_for("Add to the flask")
+    pane.keys("NaOH", literal=True)
+    pane.wait_for("sodium hydroxide")
+    pane.keys("Enter")
+    pane.wait_for("amount of sodium hydroxide")
+    pane.keys("5 mM", literal=True)
+    pane.keys("Enter")
+    after = chem.solve(demo.with_ingredient(chem.Ingredient(library.reagent("sodium hydroxide"), 0.005)))
+    pane.wait_for(rf"pH\s+{after.pH:.3f}")
+    assert re.search(r"sodium hydroxide\s+5 mM", pane.text())
+    pane.keys("C-q")
+    pane.wait_for("not saved as a preset")
+    pane.keys("d")
+    pane.wait_for(r"EXIT=0")
+
+
+def test_a_bad_preset_path_gives_one_line_and_status_2(pane, tmp_path):
+    pane.keys(f"cd {ROOT} && {sys.executable} -m tui {tmp_path}/nope.toml; echo EXIT=$?", "Enter")
+    pane.wait_for(r"EXIT=2")
+    assert "protomix: error:" in pane.text() and "Traceback" not in pane.text()
+
+
+@pytest.fixture(scope="module")
+def library():
+    return chem.load_library()
