@@ -24,6 +24,7 @@ from textual.containers import Horizontal
 from textual.reactive import var
 from textual.screen import Screen
 from textual.theme import Theme
+from textual.widget import MountError
 from textual.widgets import Footer
 from textual.worker import Worker, WorkerState, get_current_worker
 
@@ -152,13 +153,12 @@ class ExplorerApp(App[int]):
     def compose(self) -> ComposeResult:
         yield TitleBar(id="title-bar")
         with Horizontal(id="upper"):
-            yield FlaskList(id="flask").data_bind(ExplorerApp.mixture)
+            yield FlaskList(self._start, id="flask").data_bind(ExplorerApp.mixture)
             yield Readout(id="readout").data_bind(ExplorerApp.result, ExplorerApp.pinned)
         with Horizontal(id="lower"):
             yield SpeciesTable(id="species").data_bind(ExplorerApp.result, ExplorerApp.pinned)
             yield PlotArea(id="chart")
         yield NoticeBar(id="notices").data_bind(ExplorerApp.result)
-        yield Footer(compact=True)
 
     def on_mount(self) -> None:
         self.query_one("#flask").border_title = "Flask"
@@ -168,6 +168,15 @@ class ExplorerApp(App[int]):
         self.mixture = self._start
         self.query_one(FlaskList).focus()
         self._offer_restore()
+        # The key bar takes ~70 ms to build: add it after the first frame, so the pH shows sooner.
+        self.call_after_refresh(self._finish_start)
+
+    async def _finish_start(self) -> None:
+        try:
+            await self.screen_stack[0].mount(Footer(compact=True))
+        except MountError:                              # quit before the first frame: nothing to finish
+            return
+        self.screen_stack[0].refresh_bindings()         # the footer fills itself on this signal
         # Everything built so far lives as long as the app: keep it out of the garbage collector's
         # sweeps, which otherwise add tens of ms to an occasional keystroke.
         self.call_after_refresh(gc.freeze)
@@ -301,8 +310,9 @@ class ExplorerApp(App[int]):
         try:
             saved = storage.read_autosave()
         except chem.ChemError as exc:
-            self.notify(f"The autosaved session cannot be read and was set aside: {exc}", severity="warning")
-            storage.clear_autosave()
+            aside = storage.set_aside_autosave()
+            self.notify(f"The autosaved session cannot be read ({exc}); it was moved to {aside}.",
+                        severity="warning", timeout=10)
             saved = None
         if saved is None or saved == self.mixture:
             self._autosave_on = True
@@ -335,9 +345,9 @@ class ExplorerApp(App[int]):
 
     def check_action(self, action: str, parameters: tuple[object, ...]) -> bool | None:
         ours = {c.action.split("(")[0] for c in COMMANDS}
-        if action not in ours:
+        if action not in ours or action == "quit":
             return True
-        if self.screen is not self.screen_stack[0]:
+        if self.screen is not self.screen_stack[0]:     # a dialog is open: its keys only
             return False
         if action in ("remove", "nudge", "edit_amount"):
             return self.selected is not None or None

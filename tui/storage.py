@@ -127,6 +127,14 @@ def read_autosave() -> chem.Mixture | None:
     return chem.load_preset(path)
 
 
+def set_aside_autosave() -> Path:
+    """Move an unreadable autosave out of the way (kept for inspection); returns where it went."""
+    path = autosave_path()
+    aside = path.with_name("session-unreadable.toml")
+    path.replace(aside)
+    return aside
+
+
 def clear_autosave() -> None:
     """Forget the autosave (the session ended cleanly)."""
     try:

@@ -5,7 +5,7 @@ from __future__ import annotations
 from contextlib import suppress
 
 import pytest
-from textual.worker import WorkerCancelled
+from textual.worker import WorkerCancelled, WorkerFailed
 
 import chem
 
@@ -34,7 +34,7 @@ def acetate_buffer(library) -> chem.Mixture:
 async def _settle(pilot) -> None:
     app = pilot.app
     for _ in range(3):
-        with suppress(WorkerCancelled):
+        with suppress(WorkerCancelled, WorkerFailed):     # failures are checked through notifications
             await app.workers.wait_for_complete()
         await pilot.pause()
 

@@ -172,3 +172,22 @@ async def test_q_typed_into_an_amount_is_text_not_quit(acetate_buffer):
         assert app.is_running
         assert app.query_one("#flask").rows[0].editor.value == "q"
         assert app.query_one(Readout) is not None
+
+
+async def test_an_unreadable_autosave_is_set_aside_not_lost(acetate_buffer, data_dir):
+    data_dir.mkdir(parents=True)
+    (data_dir / "session.toml").write_text("this is not a preset", encoding="utf-8")
+    app = ExplorerApp(acetate_buffer)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await pilot.pause()
+        assert app.screen is app.screen_stack[0]
+        assert app.mixture == acetate_buffer
+    assert (data_dir / "session-unreadable.toml").read_text(encoding="utf-8") == "this is not a preset"
+
+
+async def test_ctrl_q_works_from_an_open_dialog(acetate_buffer):
+    app = ExplorerApp(acetate_buffer)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await pilot.press("n", "ctrl+q")
+        await pilot.pause()
+    assert app.return_value == 0

@@ -200,3 +200,40 @@ def test_a_malformed_preset_is_a_one_line_error(tmp_path, capsys):
     assert run_explorer(str(bad)) == 2
     err = capsys.readouterr().err
     assert "kg" in err and err.count("\n") == 1
+
+
+async def test_switching_to_the_light_theme_redraws_the_plot_in_light_theme_colours(settle):
+    from tui.app import DAY
+    from tui.widgets.plot_kinds import DARK_SERIES, LIGHT_SERIES
+
+    def series_colours(app):
+        colours = set()
+        for strip in app.query_one(PlotArea).image.strips:
+            for segment in strip:
+                if segment.style and segment.style.color and segment.style.color.triplet:
+                    colours.add(tuple(segment.style.color.triplet))
+        return colours
+
+    app = ExplorerApp(chem.demo_mixture())
+    async with app.run_test(size=(100, 30)) as pilot:
+        await settle(pilot)
+        assert series_colours(app) & set(DARK_SERIES)
+        app.theme = DAY.name
+        await settle(pilot)
+        assert series_colours(app) & set(LIGHT_SERIES)
+        assert not series_colours(app) & set(DARK_SERIES)
+
+
+async def test_a_failure_in_the_background_is_reported_not_swallowed(acetate_buffer, settle, monkeypatch):
+    import tui.app
+
+    def broken(result, request):
+        raise RuntimeError("plot exploded")
+
+    monkeypatch.setattr(tui.app, "build_plot", broken)
+    app = ExplorerApp(acetate_buffer)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await settle(pilot)
+        messages = [n.message for n in app._notifications]
+        assert any("solve and plot failed" in m and "plot exploded" in m for m in messages)
+        assert app.result is not None                   # the solve itself still reached the readout

@@ -16,7 +16,7 @@ from tui.widgets.amount_input import AmountInput
 #: Amount offered for a newly picked reagent; the user types over it.
 DEFAULT_AMOUNT = "10 mM"
 #: Most matches listed at once.
-MAX_HITS = 60
+MAX_HITS = 40
 
 
 def matching_reagents(library: chem.Library, query: str) -> list[chem.Reagent]:

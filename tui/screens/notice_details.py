@@ -11,7 +11,7 @@ from textual.widgets import Label, Static
 
 import chem
 
-#: What each notice code means for the user, by code. Codes not listed get a general note.
+#: What each warning means for the numbers, by code. Codes not listed get a general note.
 MEANING = {
     "not-converged": "The solver stopped before the charge balance was met. The pH and every species "
                      "shown are unreliable; change the mixture slightly or report the case.",
@@ -22,13 +22,10 @@ MEANING = {
                            "not corrected for temperature. Results away from 25 °C carry that error.",
     "temperature-out-of-range": "The temperature lies outside the range the system's data were measured "
                                 "over; its constants are extrapolated.",
-    "chlorine-release": "Safety: acidified hypochlorite gives off chlorine gas.",
-    "toxic-gas": "Safety: below this pKa the volatile, toxic acid form dominates and can escape.",
-    "ammonia-gas": "Safety: at this pH and amount, ammonia gas escapes from the solution.",
-    "chloramine": "Safety: hypochlorite and ammonia together form chloramines.",
-    "corrosive-acid": "Safety: strongly acidic; corrosive to skin, eyes and many materials.",
-    "corrosive-base": "Safety: strongly basic; corrosive to skin and eyes.",
 }
+#: What every safety caution means, whatever its code.
+CAUTION_MEANING = ("A safety caution is raised from the computed composition alone; it does not weigh "
+                   "quantities, ventilation or exposure. Treat it as a prompt to check before mixing.")
 GENERAL = "See the message above; it names what the result depends on."
 
 
@@ -48,12 +45,15 @@ class NoticeDetails(ModalScreen[None]):
             with VerticalScroll(can_focus=False):
                 if not eq.cautions and not eq.warnings:
                     yield Static("None for this mixture. The numbers still are model estimates.")
-                for kind, notices, style in (("CAUTION", eq.cautions, "bold $error"),
-                                             ("warning", eq.warnings, "bold $warning")):
-                    for notice in notices:
-                        yield Static(Content.assemble(
-                            (f"{kind} ", style), (f"[{notice.code}]", "dim"), "\n", notice.message, "\n",
-                            (MEANING.get(notice.code, GENERAL), "italic")), classes="notice")
+                for notice in eq.cautions:
+                    yield Static(Content.assemble(("CAUTION ", "bold $error"), (f"[{notice.code}]", "dim"), "\n",
+                                                  notice.message), classes="notice")
+                if eq.cautions:
+                    yield Static(Content(CAUTION_MEANING), classes="notice meaning")
+                for notice in eq.warnings:
+                    yield Static(Content.assemble(("warning ", "bold $warning"), (f"[{notice.code}]", "dim"), "\n",
+                                                  notice.message, "\n",
+                                                  (MEANING.get(notice.code, GENERAL), "italic")), classes="notice")
             yield Label("esc close", classes="dialog-hint")
 
     def action_close(self) -> None:

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+from functools import partial
 from typing import Generic, TypeVar
 
 from textual import on
@@ -13,6 +14,9 @@ from textual.widgets import Input, Label, OptionList
 from textual.widgets.option_list import Option
 
 T = TypeVar("T")
+
+#: Wait before refilling the list after a keystroke (s): one frame, so the keystroke shows first.
+REFILL_DELAY = 1 / 60
 
 
 class PickerScreen(ModalScreen[T], Generic[T]):
@@ -77,10 +81,10 @@ class PickerScreen(ModalScreen[T], Generic[T]):
 
     @on(Input.Changed, "#picker-query")
     def _filter(self, event: Input.Changed) -> None:
-        # Refill after the next frame, so the typed character shows at once; a newer keystroke
+        # Refill a frame later, so the typed character shows at once; a newer keystroke
         # makes an older refill moot.
         self._query = event.value
-        self.call_after_refresh(self._refill_latest, event.value)
+        self.set_timer(REFILL_DELAY, partial(self._refill_latest, event.value))
 
     def _refill_latest(self, query: str) -> None:
         if query == self._query:

@@ -22,6 +22,8 @@ class _FlaskRow(Vertical):
     def __init__(self, ingredient: chem.Ingredient) -> None:
         super().__init__(classes="flask-row")
         self.ingredient = ingredient
+        self.error: str | None = None
+        """Why the amount being typed is refused, or None."""
         self.name_label = Label(ingredient.reagent.name, classes="flask-name")
         self.amount = Label(ingredient.label, classes="flask-amount")
 
@@ -65,9 +67,11 @@ class _FlaskRow(Vertical):
             self.editor.remove()
 
     def show_error(self, message: str | None) -> None:
+        if message == self.error:
+            return
+        self.error = message
         self.set_class(message is not None, "-error")
-        if self.children:
-            self.query_one(".flask-error", Label).update(message or "")
+        self.query_one(".flask-error", Label).update(message or "")
         if message is not None and self.parent is not None:
             self.call_after_refresh(self.parent.scroll_to_widget, self, animate=False)
 
@@ -113,12 +117,19 @@ class FlaskList(VerticalScroll, can_focus=True):
         text: str
         """The amount as typed, kept for display and saving."""
 
-    def __init__(self, *, id: str | None = None) -> None:
+    def __init__(self, mixture: chem.Mixture | None = None, *, id: str | None = None) -> None:
+        """Create the panel.
+
+        Args:
+            mixture: What the flask holds at first (composed at once, saving a later mount).
+            id: Widget id.
+        """
         super().__init__(id=id)
-        self._rows: list[_FlaskRow] = []
+        self._rows = [_FlaskRow(ingredient) for ingredient in (mixture.ingredients if mixture else ())]
 
     def compose(self) -> ComposeResult:
         yield Label("Empty flask: pure water. Press n to add an ingredient.", id="flask-empty")
+        yield from self._rows
 
     @property
     def rows(self) -> list[_FlaskRow]:

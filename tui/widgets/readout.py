@@ -67,9 +67,9 @@ class Readout(Vertical):
             ("✓ converged", "$success") if eq.converged else ("✗ NOT converged", "bold $error")]
         if eq.cautions:
             n = len(eq.cautions)
-            state += ["   ", (f"{n} caution{'s' * (n > 1)}", "bold $error")]
+            state += ["  ", (f"{n} caution{'s' * (n > 1)}", "bold $error")]
         n = len(eq.warnings)
-        state += ["   ", (f"{n} warning{'s' * (n != 1)}", "$warning" if n else "dim")]
+        state += ["  ", (f"{n} warning{'s' * (n != 1)}", "$warning" if n else "dim")]
         self._show("#solve-state", Content.assemble(*state))
         totals = ", ".join(f"{name} {chem.format_molar(total)}" for name, total in eq.systems) or "none"
         self._show("#readout-more", Content.assemble(
