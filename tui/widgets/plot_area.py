@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import re
 from dataclasses import dataclass
 
 from rich.color import Color
@@ -13,9 +12,7 @@ from textual.message import Message
 from textual.strip import Strip
 from textual.widget import Widget
 
-from tui.widgets.plot_kinds import RGB, Drawing
-
-_SGR = re.compile(r"\x1b\[([0-9;]*)m")
+from tui.widgets.plot_kinds import RGB, SGR, Drawing
 
 
 @dataclass(frozen=True)
@@ -42,7 +39,7 @@ def prepare(drawing: Drawing, width: int, base: Style) -> PlotImage:
     strips = []
     for raw in drawing.canvas.split("\n"):
         segments, style, pos = [], body, 0
-        for code in _SGR.finditer(raw):
+        for code in SGR.finditer(raw):
             if code.start() > pos:
                 segments.append(Segment(raw[pos:code.start()], style))
             params = code.group(1)

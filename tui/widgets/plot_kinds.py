@@ -45,7 +45,8 @@ _BOX_TO_ASCII = str.maketrans({
 #: Smallest plot area (cells) worth drawing; below this plotext output is unreadable.
 MIN_WIDTH, MIN_HEIGHT = 30, 8
 
-_SGR = re.compile(r"\x1b\[([0-9;]*)m")
+SGR = re.compile(r"\x1b\[([0-9;]*)m")
+"""A colour code in plotext's output (plotext writes 24-bit foreground colours and resets only)."""
 
 
 def locale_is_utf8(environ: Mapping[str, str] | None = None) -> bool:
@@ -122,7 +123,7 @@ class Drawing:
     @property
     def plain(self) -> str:
         """The whole drawing as text without colour codes."""
-        lines = [_SGR.sub("", self.canvas)] + ["".join(piece for piece, _ in line) for line in self.legend]
+        lines = [SGR.sub("", self.canvas)] + ["".join(piece for piece, _ in line) for line in self.legend]
         return "\n".join(lines)
 
 

@@ -1,0 +1,446 @@
+"""The buffer recipe designer: what to weigh or pipette for a pH at a working temperature.
+
+The form asks for a system (empty: the tool picks the best-ranked one), target pH,
+working temperature, total concentration, final volume, an optional background salt
+and the bench form of the recipe. Each change designs the recipe again with
+:func:`chem.design_buffer` in a thread worker (50–500 ms, the first one also loads
+scipy), and the result shows what to weigh or pipette, the ionic strength, the buffer
+capacity, the Henderson–Hasselbalch shortcut's pH beside the exact one, and warnings.
+
+API:
+    ``RecipeForm(library, *, target_pH=None, temperature_c=25.0, activity="davies")``, a
+    ModalScreen that dismisses with a :class:`chem.Recipe` ("load into flask": enter,
+    ctrl+l or the button), with ``("save", recipe)`` ("save as preset": ctrl+s or the
+    button), or with None (escape).
+    ``recipe_lines(recipe)``: the result as text lines (what the form shows).
+    ``Cycler``: a one-line choice among a few values (←/→ or space), also used by the sweep form.
+
+Wiring into ``tui/app.py``::
+
+    # COMMANDS: new entry (footer: yes)
+    Command("b", "recipe", "Recipe", "Design a buffer recipe and load it into the flask", True),
+
+    def action_recipe(self) -> None:
+        from tui.screens.recipe_form import RecipeForm
+
+        def done(answer) -> None:          # chem.Recipe | tuple[str, chem.Recipe] | None
+            if answer is None:
+                return
+            if isinstance(answer, tuple):  # ("save", recipe): name it, confirm, write atomically
+                self._save_recipe(answer[1])
+                return
+            self._source = "buffer recipe"
+            self.commit(answer.mixture, f"load the {answer.system.name} recipe")   # undoable
+            self.query_one(FlaskList).select(0)
+
+        pH = round(self.result.pH, 2) if self.result is not None else None
+        self.push_screen(RecipeForm(self.library, target_pH=pH, temperature_c=self.mixture.temperature_c,
+                                    activity=self.mixture.activity), done)
+
+    def _save_recipe(self, recipe) -> None:
+        from tui.screens.save_preset import SavePreset, SaveRequest
+
+        def save(request: SaveRequest | None) -> None:
+            if request is not None:
+                self._save(replace(recipe.mixture, title=request.title), request.name, request.overwrite, False)
+
+        self.push_screen(SavePreset("", recipe.mixture.title), save)
+
+    # _saved() then must mark the flask clean only when the saved mixture is the flask's:
+    #     if mixture == self.mixture: self._clean = mixture; self._preset_name = name; ... (title bar)
+    # (the recipe is saved without being loaded; loading it is the other button).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import TYPE_CHECKING, Sequence
+
+from textual import on, work
+from textual.app import ComposeResult
+from textual.binding import Binding
+from textual.containers import Grid, Horizontal, Vertical, VerticalScroll
+from textual.content import Content
+from textual.message import Message
+from textual.reactive import reactive
+from textual.screen import ModalScreen
+from textual.timer import Timer
+from textual.widget import Widget
+from textual.widgets import Button, Input, Label, Static
+from textual.worker import Worker, WorkerState, get_current_worker
+
+import chem
+from tui.widgets.curve_kinds import read_celsius, read_number
+
+if TYPE_CHECKING:                    # chem.recipe needs scipy.optimize (~0.5 s): loaded in the worker only
+    from chem.recipe import Recipe
+
+#: The bench forms of a recipe, as :data:`chem.recipe.FORMS` (not imported here: it loads scipy).
+FORMS = ("reagents", "titrant", "stocks")
+#: Wait after a keystroke before designing (s): a burst of typing starts one design, not one per key.
+DESIGN_DELAY = 0.12
+#: Defaults offered in the form.
+DEFAULT_TOTAL = "50 mM"
+DEFAULT_VOLUME = "1 L"
+
+
+class Cycler(Widget, can_focus=True):
+    """A one-line choice among a few values: ←/→ or space step through them (a Select would take ↑↓/enter)."""
+
+    DEFAULT_CSS = """
+    Cycler {
+        height: 1;
+        width: 1fr;
+        padding: 0 1;
+        background: $boost;
+    }
+    Cycler:focus {
+        background: $primary 20%;
+        text-style: bold;
+    }
+    """
+
+    BINDINGS = [
+        Binding("right,space", "step(1)", "Next", show=False),
+        Binding("left", "step(-1)", "Previous", show=False),
+    ]
+
+    value: reactive[str] = reactive("")
+    """The value shown."""
+
+    @dataclass
+    class Changed(Message):
+        """The user stepped to another value."""
+
+        cycler: "Cycler"
+        value: str
+
+        @property
+        def control(self) -> "Cycler":
+            return self.cycler
+
+    def __init__(self, choices: Sequence[str], value: str | None = None, *, id: str | None = None,
+                 classes: str | None = None) -> None:
+        """Create the cycler.
+
+        Args:
+            choices: The values, in order (at least one).
+            value: The value shown first (default: the first choice).
+            id: Widget id.
+            classes: CSS classes.
+        """
+        super().__init__(id=id, classes=classes)
+        self.choices = tuple(choices)
+        self.set_reactive(Cycler.value, value if value in self.choices else self.choices[0])
+
+    def action_step(self, step: int) -> None:
+        self.value = self.choices[(self.choices.index(self.value) + step) % len(self.choices)]
+        self.post_message(self.Changed(self, self.value))
+
+    def render(self) -> Content:
+        position = f"  {self.choices.index(self.value) + 1}/{len(self.choices)}" if len(self.choices) > 1 else ""
+        return Content.assemble(("◂ ", "dim"), self.value, (" ▸", "dim"), (position, "dim"))
+
+
+@dataclass(frozen=True)
+class RecipeAsk:
+    """What the form asks for, read (numbers) or as typed (amounts and names, read by chem)."""
+
+    system: str | None
+    target_pH: float
+    temperature_c: float
+    total: str
+    volume: str
+    salt: str
+    form: str
+    activity: str
+
+
+def recipe_lines(recipe: Recipe) -> list[Content]:
+    """The recipe as the form shows it: what to weigh or pipette, then the numbers and warnings."""
+    fm = chem.format_molar
+    t = recipe.temperature_c
+    lines = [Content.assemble((f"{recipe.system.name}", "bold"),
+                              f" buffer, {fm(recipe.total)}, {recipe.volume_label} · pH {recipe.target_pH:g} "
+                              f"at {t:g} °C · {recipe.form} · {recipe.mixture.activity}")]
+    for item in recipe.items:
+        name = item.reagent.name + (f" ({item.reagent.formula})" if item.reagent.formula else "")
+        if item.stock_conc is not None:
+            name += f", {fm(item.stock_conc)} stock"
+        lines.append(Content.assemble(f"  {item.action:<8}", (f"{item.amount:>9.4g} {item.unit:<4}", "bold $secondary"),
+                                      f" {name}", (f"  {item.role}", "dim")))
+    lines.append(Content(f"  water to {recipe.volume_label} at {t:g} °C"))
+    sc = recipe.shortcut
+    shortcut = ("Henderson–Hasselbalch: no prediction (not one step's pair)" if sc.pH is None else
+                f"Henderson–Hasselbalch {sc.pH:.3f} (pKa {sc.pka:g} at 25 °C)")
+    lines.append(Content.assemble(("pH ", "bold"), (f"{recipe.pH:.3f}", "bold $secondary"), f" exact · {shortcut}"))
+    if sc.recipe_pH is not None:
+        lines.append(Content(f"  the shortcut's own recipe would give pH {sc.recipe_pH:.3f} at {t:g} °C"))
+    beta = float(f"{recipe.buffer_capacity:.3g}")
+    ionic = float(f"{recipe.ionic_strength:.3g}")
+    state = ("converged", "$success") if recipe.equilibrium.converged else ("NOT CONVERGED", "bold $error")
+    lines.append(Content.assemble(f"ionic strength {fm(ionic)} · buffer capacity {fm(beta)}/pH · ", state))
+    for tc, ph in recipe.checks:
+        lines.append(Content(f"same solution at {tc:g} °C: pH {ph:.3f}"))
+    for notice in recipe.cautions:
+        lines.append(Content.assemble(("CAUTION ", "bold $error"), notice.message))
+    for notice in recipe.warnings:
+        lines.append(Content.assemble(("! ", "bold $warning"), notice.message))
+    return lines
+
+
+class RecipeForm(ModalScreen["Recipe | tuple[str, Recipe] | None"]):
+    """Designs a buffer recipe as the fields change; loads it into the flask or saves it as a preset.
+
+    Dismisses with the :class:`chem.Recipe` (load into flask), ``("save", recipe)`` (save as
+    preset) or None (closed).
+    """
+
+    DEFAULT_CSS = """
+    #recipe-grid {
+        grid-size: 4;
+        grid-columns: 13 1fr 13 1fr;
+        grid-rows: 1;
+        height: auto;
+    }
+    #recipe-grid .field-label {
+        padding-left: 1;
+    }
+    #recipe-grid Input {
+        background: $boost;
+    }
+    #recipe-grid Input:focus {
+        background: $primary 20%;
+    }
+    #recipe-grid Input.-invalid {
+        background: $error 25%;
+    }
+    #recipe-salt {
+        column-span: 3;
+    }
+    #recipe-status {
+        height: 1;
+        width: 100%;
+    }
+    #recipe-scroll {
+        height: auto;
+        max-height: 11;
+    }
+    #recipe-scroll.-stale {
+        opacity: 60%;
+    }
+    #recipe-buttons {
+        height: 1;
+    }
+    #recipe-buttons Button {
+        margin-right: 2;
+    }
+    """
+
+    BINDINGS = [
+        Binding("escape", "cancel", "Close", tooltip="Close without loading anything"),
+        Binding("enter", "finish('load')", "Load", show=False),
+        Binding("ctrl+l", "finish('load')", "Load", tooltip="Replace the flask's mixture with the recipe"),
+        Binding("ctrl+s", "finish('save')", "Save", tooltip="Save the recipe's solution as a preset"),
+        Binding("pagedown", "scroll(1)", show=False),
+        Binding("pageup", "scroll(-1)", show=False),
+    ]
+    AUTO_FOCUS = "#recipe-system"
+
+    #: (key, label, placeholder) of each text field, in tab order.
+    FIELDS = (
+        ("system", "system", "empty: suggest one"),
+        ("ph", "target pH", "e.g. 7.4"),
+        ("temp", "at °C", "working temperature"),
+        ("total", "total", "e.g. 50 mM"),
+        ("volume", "volume", "e.g. 1 L, 250 mL"),
+    )
+
+    @dataclass
+    class Designed(Message):
+        """The design for request ``generation`` finished: a recipe, or chem's one-line error."""
+
+        generation: int
+        recipe: "Recipe | None"
+        error: str | None
+
+    def __init__(self, library: chem.Library, *, target_pH: float | None = None, temperature_c: float = 25.0,
+                 activity: str = "davies") -> None:
+        """Create the form.
+
+        Args:
+            library: Library the systems and reagents come from.
+            target_pH: pH offered at first (None: the field starts empty).
+            temperature_c: Working temperature offered at first, °C.
+            activity: Activity model of the design (the flask's).
+        """
+        super().__init__()
+        self.library = library
+        self.activity = activity
+        self._initial = {"system": "", "ph": "" if target_pH is None else f"{target_pH:g}",
+                         "temp": f"{temperature_c:g}", "total": DEFAULT_TOTAL, "volume": DEFAULT_VOLUME}
+        self.recipe: Recipe | None = None
+        """The recipe for the fields as they are now, or None (not designed yet, or they cannot be)."""
+        self._generation = 0
+        self._error: str | None = None
+        self._then: str | None = None
+        self._timer: Timer | None = None
+
+    def compose(self) -> ComposeResult:
+        with Vertical(classes="dialog recipe"):
+            yield Label("Design a buffer", classes="dialog-heading")
+            with Grid(id="recipe-grid"):
+                for key, label, hint in self.FIELDS:
+                    yield Label(label, classes="field-label")
+                    yield Input(self._initial[key], placeholder=hint, id=f"recipe-{key}", compact=True)
+                yield Label("form", classes="field-label")
+                yield Cycler(FORMS, id="recipe-form")
+                yield Label("salt", classes="field-label")
+                yield Input(placeholder="background salt, optional, e.g. NaCl 150 mM", id="recipe-salt",
+                            compact=True)
+            yield Label("", id="recipe-status")
+            with VerticalScroll(id="recipe-scroll", can_focus=False):
+                yield Static("", id="recipe-result")
+            with Horizontal(id="recipe-buttons"):
+                yield Button("Load into flask ⏎", id="recipe-load", compact=True, variant="primary")
+                yield Button("Save as preset ^s", id="recipe-save", compact=True)
+                yield Button("Cancel esc", id="recipe-cancel", compact=True)
+            yield Label("tab next field · ←→ form · pgup/pgdn scroll · enter load · esc close",
+                        classes="dialog-hint")
+
+    def on_mount(self) -> None:
+        self._changed()
+
+    # -- reading the fields ------------------------------------------------------------------
+    def _text(self, key: str) -> str:
+        return self.query_one(f"#recipe-{key}", Input).value.strip()
+
+    def _field_problems(self) -> dict[str, str]:
+        """One-line problems of the fields chem can check at once (the salt is checked by the design)."""
+        problems: dict[str, str] = {}
+
+        def check(key: str, read) -> None:
+            try:
+                read(self._text(key))
+            except chem.ChemError as exc:
+                problems[key] = str(exc)
+
+        check("system", lambda s: s and self.library.system(s))
+        check("ph", lambda s: read_number(s, "target pH") if s else _missing("target pH"))
+        check("temp", lambda s: chem.Mixture((), temperature_c=read_celsius(s, "temperature")))
+        check("total", lambda s: chem.parse_concentration(s) if s else _missing("total concentration"))
+        check("volume", lambda s: chem.parse_volume(s) if s else _missing("final volume"))
+        return problems
+
+    def ask(self) -> RecipeAsk:
+        """The fields, read; only call when :meth:`_field_problems` finds none."""
+        return RecipeAsk(system=self._text("system") or None, target_pH=read_number(self._text("ph"), "target pH"),
+                         temperature_c=read_celsius(self._text("temp")), total=self._text("total"),
+                         volume=self._text("volume"), salt=self._text("salt"),
+                         form=self.query_one(Cycler).value, activity=self.activity)
+
+    # -- designing ---------------------------------------------------------------------------
+    @on(Input.Changed)
+    @on(Cycler.Changed)
+    def _changed(self) -> None:
+        """A field changed: the shown recipe is out of date; design again shortly."""
+        self._generation += 1
+        self.recipe = None
+        self._error = None
+        if self._timer is not None:
+            self._timer.stop()
+        problems = self._field_problems()
+        for key, _, _ in self.FIELDS:
+            self.query_one(f"#recipe-{key}", Input).set_class(key in problems, "-invalid")
+        self.query_one("#recipe-scroll").add_class("-stale")
+        if problems:
+            self._error = next(iter(problems.values()))
+            self._then = None
+            self._status(self._error, error=True)
+            return
+        self._status("designing…")
+        self._timer = self.set_timer(DESIGN_DELAY, lambda g=self._generation: self._start(g))
+
+    def _start(self, generation: int) -> None:
+        if generation == self._generation:
+            self._design(generation, self.ask())
+
+    @work(thread=True, exclusive=True, group="recipe", exit_on_error=False, description="design a buffer")
+    def _design(self, generation: int, ask: RecipeAsk) -> None:
+        try:
+            recipe = chem.design_buffer(ask.system, ask.target_pH, temperature_c=ask.temperature_c,
+                                        total=ask.total, volume=ask.volume, form=ask.form,
+                                        salts=(ask.salt,) if ask.salt else (), activity=ask.activity,
+                                        library=self.library)
+        except chem.ChemError as exc:
+            recipe, error = None, str(exc)
+        else:
+            error = None
+        if not get_current_worker().is_cancelled:
+            self.post_message(self.Designed(generation, recipe, error))
+
+    @on(Designed)
+    def _designed(self, message: Designed) -> None:
+        if message.generation != self._generation:           # an answer to an older question
+            return
+        if message.recipe is None:
+            self._error = message.error
+            self._then = None
+            self._status(message.error or "", error=True)
+            return
+        self.recipe = message.recipe
+        self.query_one("#recipe-result", Static).update(Content("\n").join(recipe_lines(message.recipe)))
+        self.query_one("#recipe-scroll").remove_class("-stale")
+        self._status(f"pH {message.recipe.pH:.3f} at {message.recipe.temperature_c:g} °C with "
+                     f"{message.recipe.system.name} · enter loads it into the flask")
+        if self._then is not None:
+            self.action_finish(self._then)
+
+    @on(Worker.StateChanged)
+    def _design_failed(self, event: Worker.StateChanged) -> None:
+        if event.state == WorkerState.ERROR and event.worker.group == "recipe":
+            error = event.worker.error
+            self._error = f"the design failed: {type(error).__name__}: {error}"
+            self._then = None
+            self._status(self._error, error=True)
+
+    def _status(self, text: str, *, error: bool = False) -> None:
+        status = self.query_one("#recipe-status", Label)
+        status.update(Content(text))
+        status.set_class(error, "dialog-error")
+
+    # -- actions -----------------------------------------------------------------------------
+    @on(Input.Submitted)
+    def _submitted(self, event: Input.Submitted) -> None:
+        event.stop()
+        self.action_finish("load")
+
+    @on(Button.Pressed)
+    def _pressed(self, event: Button.Pressed) -> None:
+        event.stop()
+        if event.button.id == "recipe-cancel":
+            self.action_cancel()
+        else:
+            self.action_finish("save" if event.button.id == "recipe-save" else "load")
+
+    def action_finish(self, what: str) -> None:
+        """Load (``"load"``) or save (``"save"``) the recipe: now if it is ready, else once it is."""
+        if self.recipe is not None:
+            self.dismiss(self.recipe if what == "load" else ("save", self.recipe))
+        elif self._error is not None:
+            self._status(self._error, error=True)          # refused until the fields make a recipe
+            self.app.bell()
+        else:
+            self._then = what
+            self._status("designing… (then " + ("loading it" if what == "load" else "saving it") + ")")
+
+    def action_scroll(self, pages: int) -> None:
+        scroll = self.query_one("#recipe-scroll", VerticalScroll)
+        scroll.scroll_relative(y=pages * max(1, scroll.size.height - 1), animate=False)
+
+    def action_cancel(self) -> None:
+        self.dismiss(None)
+
+
+def _missing(what: str) -> None:
+    raise chem.UnitError(f"{what}: required")

@@ -1,0 +1,185 @@
+"""The sweep form: what varies (an ingredient's amount, or the temperature), from, to, how many points.
+
+API:
+    ``SweepSetup(mixture, settings=None)``, a ModalScreen that dismisses with a
+    :class:`~tui.widgets.curve_kinds.SweepSettings` (enter, once every field is valid) or
+    None (escape). ``settings`` fills the fields (None, or an ingredient no longer in the
+    flask: :func:`~tui.widgets.curve_kinds.default_sweep` of the first choice). What varies
+    is picked with ←/→ among the flask's ingredients and "temperature"; picking another
+    fills from/to with that choice's default range. Amounts are read by
+    :func:`chem.parse_concentration` (g/L when the reagent has a molar mass), temperatures
+    are checked against the model's range by chem.
+
+Wiring: see the top of ``tui/widgets/curve_kinds.py`` (``action_curve_setup``).
+"""
+
+from __future__ import annotations
+
+from textual import on
+from textual.app import ComposeResult
+from textual.binding import Binding
+from textual.containers import Horizontal, Vertical
+from textual.content import Content
+from textual.screen import ModalScreen
+from textual.widgets import Input, Label
+
+import chem
+from chem.curves import ingredient_index
+from tui.screens.recipe_form import Cycler
+from tui.widgets.curve_kinds import MAX_SWEEP_POINTS, SweepSettings, default_sweep
+
+TEMPERATURE = "temperature"
+
+
+class SweepSetup(ModalScreen["SweepSettings | None"]):
+    """Asks what varies and over which range; dismisses with the :class:`SweepSettings`."""
+
+    DEFAULT_CSS = """
+    .setup-row {
+        height: 1;
+        margin-top: 1;
+    }
+    .setup-row .field-label {
+        width: 16;
+    }
+    .setup-row Input {
+        width: 1fr;
+        background: $boost;
+    }
+    .setup-row Input:focus {
+        background: $primary 20%;
+    }
+    .setup-row Input.-invalid {
+        background: $error 25%;
+    }
+    #sweep-error {
+        height: auto;
+    }
+    """
+
+    BINDINGS = [Binding("escape", "cancel", "Close", tooltip="Close without changing the sweep"),
+                Binding("enter", "accept", "Draw", show=False)]
+    AUTO_FOCUS = "#sweep-vary"
+
+    #: (key, label) of the text fields, in tab order.
+    FIELDS = (("from", "from"), ("to", "to"), ("points", "points"))
+
+    def __init__(self, mixture: chem.Mixture, settings: SweepSettings | None = None) -> None:
+        """Create the form.
+
+        Args:
+            mixture: The flask's mixture: its ingredients are what can vary.
+            settings: Values to start from (None: the default sweep of the first ingredient).
+        """
+        super().__init__()
+        self.mixture = mixture
+        self.choices = tuple(i.reagent.name for i in mixture.ingredients) + (TEMPERATURE,)
+        chosen = None
+        if settings is not None:
+            chosen = TEMPERATURE if settings.is_temperature else self._choice_for(settings.vary)
+        self.settings = settings if chosen is not None else default_sweep(mixture, self.choices[0])
+        self.vary = chosen or self.choices[0]
+
+    def _choice_for(self, vary: str) -> str | None:
+        try:
+            return self.mixture.ingredients[ingredient_index(self.mixture, vary)].reagent.name
+        except chem.ChemError:
+            return None
+
+    def compose(self) -> ComposeResult:
+        start = {"from": self.settings.from_text, "to": self.settings.to_text, "points": str(self.settings.points)}
+        with Vertical(classes="dialog sweep"):
+            yield Label("Sweep: pH as one thing varies", classes="dialog-heading")
+            with Horizontal(classes="setup-row"):
+                yield Label("vary", classes="field-label")
+                yield Cycler(self.choices, self.vary, id="sweep-vary")
+            for key, label in self.FIELDS:
+                with Horizontal(classes="setup-row"):
+                    yield Label(label, classes="field-label")
+                    yield Input(start[key], id=f"sweep-{key}", compact=True)
+            yield Label("", id="sweep-error", classes="dialog-error")
+            yield Label("←→ what varies · tab next field · enter draw · esc close", classes="dialog-hint")
+
+    def on_mount(self) -> None:
+        self._placeholders()
+        self._check()
+
+    def _placeholders(self) -> None:
+        temperature = self.vary == TEMPERATURE
+        example = ("e.g. 5 or 5 °C", "e.g. 60 °C") if temperature else ("e.g. 0 mM", "e.g. 20 mM")
+        self.query_one("#sweep-from", Input).placeholder = example[0]
+        self.query_one("#sweep-to", Input).placeholder = example[1]
+        self.query_one("#sweep-points", Input).placeholder = f"2 to {MAX_SWEEP_POINTS}"
+
+    # -- reading the fields ------------------------------------------------------------------
+    def _text(self, key: str) -> str:
+        return self.query_one(f"#sweep-{key}", Input).value.strip()
+
+    def _points(self) -> int:
+        text = self._text("points")
+        try:
+            return int(text)
+        except ValueError:
+            raise chem.UnitError(f"'{text}' is not a whole number") from None
+
+    def problems(self) -> dict[str, str]:
+        """Field key -> one-line problem, for every field chem refuses (and 'to' not above 'from')."""
+        out: dict[str, str] = {}
+        values: dict[str, float] = {}
+        draft = SweepSettings(self.vary, self._text("from"), self._text("to"))
+        for key in ("from", "to"):
+            try:
+                values[key] = draft.value(self._text(key), self.mixture, key)
+            except chem.ChemError as exc:
+                message = str(exc)
+                out[key] = message if message.startswith(f"{key}:") else f"{key}: {message}"
+        if not out and not values["to"] > values["from"]:
+            out["to"] = f"to: must be above 'from' ({self._text('from')})"
+        try:
+            SweepSettings(self.vary, "", "", self._points()).check_points()
+        except chem.ChemError as exc:
+            message = str(exc)
+            out["points"] = message if message.startswith("points") else f"points: {message}"
+        return out
+
+    def current(self) -> SweepSettings:
+        """The settings as typed now; only call when :meth:`problems` finds none."""
+        return SweepSettings(self.vary, self._text("from"), self._text("to"), self._points())
+
+    def _check(self) -> dict[str, str]:
+        problems = self.problems()
+        for key, _ in self.FIELDS:
+            self.query_one(f"#sweep-{key}", Input).set_class(key in problems, "-invalid")
+        self.query_one("#sweep-error", Label).update(Content(next(iter(problems.values()), "")))
+        return problems
+
+    # -- events ------------------------------------------------------------------------------
+    @on(Cycler.Changed, "#sweep-vary")
+    def _vary_changed(self, event: Cycler.Changed) -> None:
+        self.vary = event.value
+        default = default_sweep(self.mixture, event.value)
+        with self.prevent(Input.Changed):
+            self.query_one("#sweep-from", Input).value = default.from_text
+            self.query_one("#sweep-to", Input).value = default.to_text
+        self._placeholders()
+        self._check()
+
+    @on(Input.Changed)
+    def _changed(self) -> None:
+        self._check()
+
+    @on(Input.Submitted)
+    def _submitted(self, event: Input.Submitted) -> None:
+        event.stop()
+        self.action_accept()
+
+    def action_accept(self) -> None:
+        problems = self._check()
+        if problems:
+            self.query_one(f"#sweep-{next(iter(problems))}", Input).focus()
+            self.app.bell()
+            return
+        self.dismiss(self.current())
+
+    def action_cancel(self) -> None:
+        self.dismiss(None)

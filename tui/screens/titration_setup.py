@@ -1,0 +1,227 @@
+"""The titration form: which titrant, how strong, how much sample, up to what volume.
+
+API:
+    ``TitrationSetup(mixture, settings=None, library=None)``, a ModalScreen that dismisses
+    with a :class:`~tui.widgets.curve_kinds.TitrationSettings` (enter, once every field is
+    valid) or None (escape). ``settings`` fills the fields (None: 0.1 M NaOH into 25 mL up to
+    50 mL). Every field is read by chem (the titrant by :func:`chem.curves.find_reagent`, so a
+    custom reagent of ``mixture`` counts; amounts by :func:`chem.parse_concentration` and
+    :func:`chem.parse_volume`); a bad entry is marked and explained, and enter is refused.
+
+While the titrant is typed, matching reagents of the library are listed under it:
+↑/↓ choose one, enter takes it (then enter again draws). Wiring: see the top of
+``tui/widgets/curve_kinds.py`` (``action_curve_setup``).
+"""
+
+from __future__ import annotations
+
+from textual import on
+from textual.app import ComposeResult
+from textual.binding import Binding
+from textual.containers import Horizontal, Vertical
+from textual.content import Content
+from textual.screen import ModalScreen
+from textual.widgets import Input, Label, OptionList
+from textual.widgets.option_list import Option
+
+import chem
+from tui.screens.finder import matching_reagents
+from tui.widgets.curve_kinds import (DEFAULT_SAMPLE, DEFAULT_TITRANT_CONC, DEFAULT_TO, TitrationSettings)
+
+#: Most titrant matches listed under the field while typing.
+MAX_MATCHES = 5
+
+
+class TitrationSetup(ModalScreen["TitrationSettings | None"]):
+    """Asks for the titrant, its stock concentration, the sample volume and the last volume added."""
+
+    DEFAULT_CSS = """
+    .setup-row {
+        height: 1;
+        margin-top: 1;
+    }
+    .setup-row .field-label {
+        width: 24;
+    }
+    .setup-row Input {
+        width: 1fr;
+        background: $boost;
+    }
+    .setup-row Input:focus {
+        background: $primary 20%;
+    }
+    .setup-row Input.-invalid {
+        background: $error 25%;
+    }
+    #titrant-matches {
+        height: auto;
+        max-height: 5;
+        margin-left: 24;
+        border: none;
+        background: $panel;
+    }
+    #titration-error {
+        height: auto;
+    }
+    """
+
+    BINDINGS = [
+        Binding("escape", "cancel", "Close", tooltip="Close without changing the titration"),
+        Binding("down", "match(1)", "Next match", show=False),
+        Binding("up", "match(-1)", "Previous match", show=False),
+    ]
+    AUTO_FOCUS = "#titration-titrant"
+
+    #: (key, label, placeholder) of each field, in tab order.
+    FIELDS = (
+        ("titrant", "titrant", "reagent name or formula, e.g. NaOH, HCl"),
+        ("conc", "stock concentration", "e.g. 0.1 M"),
+        ("sample", "sample volume", "of the flask's mixture, e.g. 25 mL"),
+        ("to", "titrate up to", "last volume of titrant, e.g. 50 mL"),
+    )
+
+    def __init__(self, mixture: chem.Mixture, settings: TitrationSettings | None = None,
+                 library: chem.Library | None = None) -> None:
+        """Create the form.
+
+        Args:
+            mixture: The flask's mixture (its custom reagents may be titrants).
+            settings: Values to start from (None: 0.1 M NaOH into 25 mL, up to 50 mL).
+            library: Reagent library (default: the built-in one).
+        """
+        super().__init__()
+        self.mixture = mixture
+        self.library = library or chem.load_library()
+        self.settings = settings or TitrationSettings("NaOH", DEFAULT_TITRANT_CONC, DEFAULT_SAMPLE, DEFAULT_TO)
+
+    def compose(self) -> ComposeResult:
+        start = {"titrant": self.settings.titrant_name, "conc": self.settings.titrant_conc_text,
+                 "sample": self.settings.sample_text, "to": self.settings.to_text}
+        with Vertical(classes="dialog titration"):
+            yield Label("Titrate a sample of the flask", classes="dialog-heading")
+            for key, label, hint in self.FIELDS:
+                with Horizontal(classes="setup-row"):
+                    yield Label(label, classes="field-label")
+                    yield Input(start[key], placeholder=hint, id=f"titration-{key}", compact=True)
+                if key == "titrant":
+                    matches = OptionList(id="titrant-matches")
+                    matches.can_focus = False
+                    yield matches
+            yield Label("", id="titration-error", classes="dialog-error")
+            yield Label("tab next field · ↑↓ enter pick a match · enter draw · esc close", classes="dialog-hint")
+
+    def on_mount(self) -> None:
+        self.query_one("#titrant-matches").display = False
+        self._check()
+
+    # -- reading the fields ------------------------------------------------------------------
+    def current(self) -> TitrationSettings:
+        """The settings as typed now (not checked)."""
+        def text(key: str) -> str:
+            return self.query_one(f"#titration-{key}", Input).value.strip()
+
+        return TitrationSettings(text("titrant"), text("conc"), text("sample"), text("to"))
+
+    def problems(self) -> dict[str, str]:
+        """Field key -> one-line problem, for every field chem refuses."""
+        settings = self.current()
+        out: dict[str, str] = {}
+        titrant = None
+        try:
+            titrant = settings.titrant(self.mixture, self.library)
+        except chem.ChemError as exc:
+            out["titrant"] = f"titrant: {exc}"
+        labels = {key: label for key, label, _ in self.FIELDS}
+        for key, read in (("conc", lambda: settings.titrant_conc(titrant)), ("sample", settings.sample_volume),
+                          ("to", settings.to_volume)):
+            try:
+                read()
+            except chem.ChemError as exc:
+                message = str(exc)
+                out[key] = message if message.startswith(f"{labels[key]}:") else f"{labels[key]}: {message}"
+        return out
+
+    def _check(self) -> dict[str, str]:
+        """Mark the fields chem refuses and show the first problem; returns them all."""
+        problems = self.problems()
+        for key, _, _ in self.FIELDS:
+            self.query_one(f"#titration-{key}", Input).set_class(key in problems, "-invalid")
+        first = next(iter(problems.values()), "")
+        self.query_one("#titration-error", Label).update(Content(first))
+        return problems
+
+    # -- titrant matches ---------------------------------------------------------------------
+    def _matches_shown(self) -> bool:
+        return bool(self.query_one("#titrant-matches", OptionList).display)
+
+    def _fill_matches(self, query: str) -> None:
+        listing = self.query_one("#titrant-matches", OptionList)
+        found: list[chem.Reagent] = []
+        if query.strip():
+            key = query.strip().casefold()
+            found = [i.reagent for i in self.mixture.ingredients if i.reagent.custom and key in i.reagent.name.casefold()]
+            found += [r for r in matching_reagents(self.library, query) if r not in found]
+        found = found[:MAX_MATCHES]
+        try:
+            self.current().titrant(self.mixture, self.library)
+            exact = True                              # the text names a reagent already: nothing to pick
+        except chem.ChemError:
+            exact = False
+        listing.set_options([Option(Content.assemble((r.name, "bold"), "  ", (r.formula, "dim")), id=r.name)
+                             for r in found])
+        listing.display = bool(found) and not exact
+        if found:
+            listing.highlighted = 0
+
+    def check_action(self, action: str, parameters: tuple[object, ...]) -> bool | None:
+        if action == "match":
+            return self._matches_shown() and self.focused is self.query_one("#titration-titrant")
+        return True
+
+    def action_match(self, step: int) -> None:
+        listing = self.query_one("#titrant-matches", OptionList)
+        current = listing.highlighted if listing.highlighted is not None else 0
+        listing.highlighted = max(0, min(current + step, listing.option_count - 1))
+
+    def _take_match(self, name: str) -> None:
+        titrant = self.query_one("#titration-titrant", Input)
+        titrant.value = name
+        titrant.cursor_position = len(name)
+        self.query_one("#titrant-matches").display = False
+        self.query_one("#titration-conc", Input).focus()
+
+    @on(OptionList.OptionSelected, "#titrant-matches")
+    def _clicked_match(self, event: OptionList.OptionSelected) -> None:
+        if event.option.id is not None:
+            self._take_match(event.option.id)
+
+    # -- events ------------------------------------------------------------------------------
+    @on(Input.Changed)
+    def _changed(self, event: Input.Changed) -> None:
+        if event.input.id == "titration-titrant" and event.input.has_focus:
+            self._fill_matches(event.value)
+        self._check()
+
+    @on(Input.Blurred, "#titration-titrant")
+    def _left_titrant(self) -> None:
+        self.query_one("#titrant-matches").display = False
+
+    @on(Input.Submitted)
+    def _submit(self, event: Input.Submitted) -> None:
+        event.stop()
+        listing = self.query_one("#titrant-matches", OptionList)
+        if event.input.id == "titration-titrant" and self._matches_shown() and listing.highlighted is not None:
+            option = listing.get_option_at_index(listing.highlighted)
+            if option.id is not None:
+                self._take_match(option.id)
+                return
+        problems = self._check()
+        if problems:
+            key = next(iter(problems))
+            self.query_one(f"#titration-{key}", Input).focus()
+            self.app.bell()
+            return
+        self.dismiss(self.current())
+
+    def action_cancel(self) -> None:
+        self.dismiss(None)

@@ -1,0 +1,585 @@
+"""Curve plots for the chart panel: titration, buffer capacity, sweep and dilution.
+
+These are :class:`~tui.widgets.plot_kinds.PlotKind` objects like the ones in
+:data:`~tui.widgets.plot_kinds.PLOT_KINDS`, drawn the same way (plotext text
+built in a worker thread, legend lines under it). Every number comes from
+:mod:`chem.curves`; amounts and volumes typed by the user are read by
+:func:`chem.parse_concentration` and :func:`chem.parse_volume`. This module
+only draws.
+
+API:
+    ``titration_kind(settings=None)``, ``capacity_kind()``, ``sweep_kind(settings=None)``,
+    ``dilution_kind()`` -> :class:`PlotKind` (ids "titration", "capacity", "sweep", "dilution").
+    ``curve_kinds(titration=None, sweep=None)`` -> those four, in chart order.
+    ``draw_kind(kind, result, request)`` -> :class:`Drawing` for any kind (size guard included).
+    ``TitrationSettings`` / ``SweepSettings``: what the setup forms return (text as typed);
+    ``default_titration(result)`` / ``default_sweep(mixture)``: the settings used when none are set.
+    ``read_number(text, what)`` / ``read_celsius(text, what)``: plain numbers typed in forms.
+    A ``None`` setting means "the default for the mixture on display", decided at build time.
+
+Wiring into ``tui/app.py`` (the setup screens are ``tui.screens.titration_setup.TitrationSetup``
+and ``tui.screens.sweep_setup.SweepSetup``)::
+
+    from tui.widgets.curve_kinds import (CURVE_KIND_IDS, SweepSettings, TitrationSettings, curve_kinds,
+                                         default_sweep, default_titration, draw_kind)
+
+    # ExplorerApp.__init__:
+    self._titration: TitrationSettings | None = None     # None: default_titration(result)
+    self._sweep: SweepSettings | None = None             # None: default_sweep(mixture)
+
+    @property
+    def kinds(self) -> tuple[PlotKind, ...]:
+        return PLOT_KINDS + curve_kinds(self._titration, self._sweep)
+
+    def _kind(self) -> PlotKind:
+        return next(k for k in self.kinds if k.id == self.plot_kind)
+
+    # _recompute: pass self._kind() to _compute; in _compute replace
+    #   build_plot(result, request)            ->  draw_kind(kind, result, request)
+    # _plot_title: use kind.title, and add " · system" only when kind.id not in CURVE_KIND_IDS
+    #   (the curve kinds ignore request.system: they are about the whole mixture).
+    # action_next_plot: cycle through [k.id for k in self.kinds] instead of PLOT_KINDS.
+
+    # COMMANDS: new entry (the "g" help becomes "Switch the plot (fractions, log C, titration,
+    # buffer capacity, sweep, dilution)"):
+    Command("v", "curve_setup", "Curve", "Set up the titration or sweep shown in the chart", True),
+
+    def action_curve_setup(self) -> None:
+        from tui.screens.sweep_setup import SweepSetup
+        from tui.screens.titration_setup import TitrationSetup
+
+        if self.plot_kind == "sweep":
+            def use_sweep(settings: SweepSettings | None) -> None:
+                if settings is not None:
+                    self._sweep = settings
+                    self._recompute()
+            self.push_screen(SweepSetup(self.mixture, self._sweep or default_sweep(self.mixture)), use_sweep)
+            return
+
+        def use_titration(settings: TitrationSettings | None) -> None:
+            if settings is not None:
+                self._titration = settings
+                if self.plot_kind == "titration":
+                    self._recompute()
+                else:
+                    self.plot_kind = "titration"            # its watcher recomputes
+        current = self._titration or (default_titration(self.result) if self.result else None)
+        self.push_screen(TitrationSetup(self.mixture, current, self.library), use_titration)
+
+    # check_action: "curve_setup" needs a result (return self.result is not None or None), like "pin".
+
+A setting that no longer fits the mixture (a swept ingredient removed, say) is not an error of
+the app: the kind draws chem's one-line message in place of the plot, and ``v`` fixes it.
+"""
+
+from __future__ import annotations
+
+import math
+import re
+from dataclasses import dataclass, replace
+from typing import Callable, Sequence
+
+import numpy as np
+
+import chem
+from chem import curves
+from tui.widgets.plot_kinds import (_BOX_TO_ASCII, MIN_HEIGHT, MIN_WIDTH, Drawing, LegendLine, PlotKind,
+                                    PlotRequest, draw, grid_points, simplify)
+
+#: The ids of the kinds made here, in the order the chart cycles through them.
+CURVE_KIND_IDS = ("titration", "capacity", "sweep", "dilution")
+
+#: Default titration: stock concentration, sample volume, last volume added.
+DEFAULT_TITRANT_CONC = "0.1 M"
+DEFAULT_SAMPLE = "25 mL"
+DEFAULT_TO = "50 mL"
+#: The mixture is titrated with a base up to this pH, with an acid above it.
+NEUTRAL_PH = 7.0
+#: Default sweep of the temperature, °C, and the number of points of a sweep.
+DEFAULT_T_RANGE = ("5", "50")
+DEFAULT_SWEEP_POINTS = 101
+#: Most points a sweep may ask for (each is solved; more than the plot shows is wasted).
+MAX_SWEEP_POINTS = 2000
+#: Dilution factors plotted: from undiluted to this.
+DILUTION_TO = 1000.0
+#: Smallest pH span of a y axis: flatter curves are shown in a band this wide, not magnified.
+MIN_PH_SPAN = 1.0
+#: The buffer-capacity plot's y axis is scaled to β over this pH range (water dominates outside).
+SCALE_PH = (3.0, 11.0)
+#: Cap on the titration points after refinement of its steep parts (keeps a build short).
+MAX_TITRATION_POINTS = 3000
+
+#: Text that a terminal without UTF-8 cannot show, spelled in ASCII (box drawing is handled by plot_kinds).
+_ASCII_TEXT = str.maketrans({"·": "-", "…": "...", "–": "-", "β": "beta", "°": "", "µ": "u"})
+
+_CELSIUS = re.compile(r"\s*(?:°\s*C|℃|C)\s*$", re.IGNORECASE)
+
+
+# --------------------------------------------------------------------------
+# settings, as typed in the setup forms
+# --------------------------------------------------------------------------
+
+def read_number(text: str, what: str) -> float:
+    """A plain finite number typed into a form; raises :class:`chem.UnitError` naming ``what``."""
+    try:
+        value = float(text.strip())
+    except ValueError:
+        raise chem.UnitError(f"{what}: '{text.strip()}' is not a number") from None
+    if not math.isfinite(value):
+        raise chem.UnitError(f"{what}: '{text.strip()}' is not a finite number")
+    return value
+
+
+def read_celsius(text: str, what: str = "temperature") -> float:
+    """A temperature in °C typed as ``37``, ``37 °C`` or ``37C`` (the range is checked by chem)."""
+    return read_number(_CELSIUS.sub("", text), what)
+
+
+def _positive_volume(text: str, what: str) -> float:
+    litres = chem.parse_volume(text)
+    if not litres > 0:
+        raise curves.CurveError(f"{what}: must be more than zero (got '{text.strip()}')")
+    return litres
+
+
+@dataclass(frozen=True)
+class TitrationSettings:
+    """A titration as the user typed it: what is added, how strong, to how much sample, up to what volume."""
+
+    titrant_name: str
+    """Reagent name, alias or formula (library, or a custom reagent of the mixture)."""
+    titrant_conc_text: str
+    """Stock concentration, e.g. "0.1 M" (g/L when the titrant has a molar mass)."""
+    sample_text: str
+    """Volume of the flask's mixture titrated, e.g. "25 mL"."""
+    to_text: str
+    """Last volume of titrant added, e.g. "50 mL"."""
+
+    def titrant(self, mixture: chem.Mixture, library: chem.Library | None = None) -> chem.Reagent:
+        """The titrant reagent; raises :class:`chem.ChemError` with a one-line message."""
+        if not self.titrant_name.strip():
+            raise curves.CurveError("titrant: give a reagent name, e.g. NaOH")
+        return curves.find_reagent(self.titrant_name.strip(), mixture, library)
+
+    def titrant_conc(self, titrant: chem.Reagent | None) -> float:
+        """Stock concentration, mol/L (mass units need the titrant's molar mass)."""
+        conc = chem.parse_concentration(self.titrant_conc_text,
+                                        molar_mass=None if titrant is None else titrant.molar_mass)
+        if not conc > 0:
+            raise curves.CurveError(f"stock concentration: must be more than zero "
+                                    f"(got '{self.titrant_conc_text.strip()}')")
+        return conc
+
+    def sample_volume(self) -> float:
+        """Sample volume, L."""
+        return _positive_volume(self.sample_text, "sample volume")
+
+    def to_volume(self) -> float:
+        """Last titrant volume, L."""
+        return _positive_volume(self.to_text, "titrate up to")
+
+    def resolve(self, mixture: chem.Mixture,
+                library: chem.Library | None = None) -> tuple[chem.Reagent, float, float, float]:
+        """(titrant, stock mol/L, sample L, last volume L); raises :class:`chem.ChemError`."""
+        titrant = self.titrant(mixture, library)
+        return titrant, self.titrant_conc(titrant), self.sample_volume(), self.to_volume()
+
+
+def default_titration(result: chem.Equilibrium) -> TitrationSettings:
+    """0.1 M NaOH into 25 mL of the mixture up to 50 mL; HCl instead when the mixture is basic."""
+    titrant = "NaOH" if result.pH <= NEUTRAL_PH else "HCl"
+    return TitrationSettings(titrant, DEFAULT_TITRANT_CONC, DEFAULT_SAMPLE, DEFAULT_TO)
+
+
+@dataclass(frozen=True)
+class SweepSettings:
+    """A sweep as the user typed it: what varies (an ingredient or "temperature"), from, to, points."""
+
+    vary: str
+    """Ingredient name (reagent name, alias or formula) or "temperature"."""
+    from_text: str
+    """Start: an amount ("0 mM") or a temperature ("5", "5 °C")."""
+    to_text: str
+    points: int = DEFAULT_SWEEP_POINTS
+
+    @property
+    def is_temperature(self) -> bool:
+        return self.vary.strip().casefold() == "temperature"
+
+    def ingredient(self, mixture: chem.Mixture) -> chem.Ingredient:
+        """The ingredient that varies; raises :class:`chem.ChemError` if the mixture has none by that name."""
+        return mixture.ingredients[curves.ingredient_index(mixture, self.vary)]
+
+    def value(self, text: str, mixture: chem.Mixture, what: str) -> float:
+        """One end of the range: mol/L of the ingredient, or °C (checked against the model's range)."""
+        if self.is_temperature:
+            t = read_celsius(text, what)
+            mixture.with_temperature(t)                   # chem's range check and message
+            return t
+        reagent = self.ingredient(mixture).reagent
+        return chem.parse_concentration(text, molar_mass=reagent.molar_mass)
+
+    def check_points(self) -> int:
+        if isinstance(self.points, bool) or not isinstance(self.points, int) or \
+                not 2 <= self.points <= MAX_SWEEP_POINTS:
+            raise curves.CurveError(f"points must be a whole number from 2 to {MAX_SWEEP_POINTS} "
+                                    f"(got {self.points!r})")
+        return self.points
+
+    def resolve(self, mixture: chem.Mixture) -> tuple[str, np.ndarray]:
+        """(what varies, for :func:`chem.sweep`, and the values); raises :class:`chem.ChemError`."""
+        vary = "temperature" if self.is_temperature else self.ingredient(mixture).reagent.name
+        lo = self.value(self.from_text, mixture, "from")
+        hi = self.value(self.to_text, mixture, "to")
+        if not hi > lo:
+            raise curves.CurveError(f"'from' must be below 'to' (got {self.from_text.strip()} and "
+                                    f"{self.to_text.strip()})")
+        return vary, np.linspace(lo, hi, self.check_points())
+
+
+def default_sweep(mixture: chem.Mixture, vary: str | None = None) -> SweepSettings:
+    """The default sweep of ``vary`` (default: the first ingredient, or the temperature in an empty flask).
+
+    An ingredient runs from none to twice its amount; the temperature from 5 to 50 °C.
+    """
+    names = [i.reagent.name for i in mixture.ingredients]
+    if vary is None:
+        vary = names[0] if names else "temperature"
+    if vary.strip().casefold() == "temperature":
+        return SweepSettings("temperature", *DEFAULT_T_RANGE)
+    ingredient = mixture.ingredients[curves.ingredient_index(mixture, vary)]
+    top = 2 * ingredient.conc if ingredient.conc > 0 else 0.01
+    return SweepSettings(ingredient.reagent.name, "0", chem.format_molar(top))
+
+
+# --------------------------------------------------------------------------
+# axes
+# --------------------------------------------------------------------------
+
+def _step(span: float, most: int) -> float:
+    """A 1-2-2.5-5 step giving at most ``most`` intervals over ``span``."""
+    raw = span / max(most, 1)
+    mag = 10.0 ** math.floor(math.log10(raw))
+    for m in (1.0, 2.0, 2.5, 5.0, 10.0):
+        if span / (m * mag) <= most + 1e-9:
+            return m * mag
+    return 10.0 * mag
+
+
+def ticks_within(lo: float, hi: float, most: int) -> list[float]:
+    """Round tick positions inside [lo, hi], at most ``most`` + 1 of them."""
+    step = _step(hi - lo, most)
+    first = math.ceil(lo / step - 1e-9)
+    last = math.floor(hi / step + 1e-9)
+    return [float(f"{k * step:.10g}") for k in range(first, last + 1)]
+
+
+def ph_axis(values: np.ndarray, most: int) -> tuple[tuple[float, float], list[float]]:
+    """A y range (widened to round ticks, at least :data:`MIN_PH_SPAN` wide) and its ticks for pH values."""
+    finite = values[np.isfinite(values)]
+    lo, hi = (float(finite.min()), float(finite.max())) if finite.size else (0.0, 14.0)
+    if hi - lo < MIN_PH_SPAN:
+        mid = 0.5 * (lo + hi)
+        lo, hi = mid - MIN_PH_SPAN / 2, mid + MIN_PH_SPAN / 2
+    step = _step(hi - lo, most)
+    bottom = step * math.floor(lo / step + 1e-9)
+    top = step * math.ceil(hi / step - 1e-9)
+    ticks = ticks_within(bottom, top, most)
+    return (ticks[0], ticks[-1]), ticks
+
+
+# --------------------------------------------------------------------------
+# drawing
+# --------------------------------------------------------------------------
+
+@dataclass(frozen=True)
+class Mark:
+    """A vertical line at ``x`` in the guide colour, labelled at the top of the plot."""
+
+    x: float
+    label: str
+
+
+def _legend_rows(request: PlotRequest) -> int:
+    """Legend lines a plot of this height can spare (the canvas keeps at least 7 rows)."""
+    return max(1, min(3, (request.height - 7) // 4 + 1))
+
+
+def _fit(pieces: Sequence[tuple[str, "tuple[int, int, int] | None"]], width: int) -> LegendLine:
+    """One legend line cut to ``width`` cells (an ellipsis marks the cut)."""
+    out, used = [], 0
+    for text, rgb in pieces:
+        if used + len(text) > width:
+            out.append((text[: max(width - used - 1, 0)] + "…", rgb))
+            break
+        out.append((text, rgb))
+        used += len(text)
+    return tuple(out)
+
+
+def _notes(first: LegendLine, notes: Sequence[str], request: PlotRequest) -> tuple[LegendLine, ...]:
+    """The series line, then ``notes`` joined by " · " into as many lines as the height allows."""
+    width, room = request.width, _legend_rows(request) - 1
+    if not room:                                 # one line: the notes matter more than the series name
+        return (_fit((first[0], (" " + " · ".join(notes), None)), width),) if notes else (_fit(first, width),)
+    packed: list[str] = []
+    for note in notes:
+        if packed and (len(packed) == room or len(packed[-1]) + 3 + len(note) <= width):
+            packed[-1] += f" · {note}"                 # the last line allowed takes the rest (cut to fit)
+        else:
+            packed.append(note)
+    return (_fit(first, width), *(_fit(((line, None),), width) for line in packed))
+
+
+def _say(text: str, request: PlotRequest) -> str:
+    """``text`` as the terminal can show it (ASCII spelling when it lacks UTF-8)."""
+    return text.translate(_ASCII_TEXT) if request.style.ascii else text
+
+
+def _ascii_drawing(drawing: Drawing) -> Drawing:
+    return Drawing(drawing.canvas.translate(_ASCII_TEXT),
+                   tuple(tuple((text.translate(_ASCII_TEXT), rgb) for text, rgb in line) for line in drawing.legend),
+                   drawing.note)
+
+
+def _series_line(request: PlotRequest, text: str) -> LegendLine:
+    style = request.style
+    return ((style.legend_symbol(0), style.color(0)), (f" {text}", None))
+
+
+def draw_xy(x: np.ndarray, y: np.ndarray, request: PlotRequest, *, xlabel: str, ylabel: str,
+            xlim: tuple[float, float], xticks: Sequence[float], xtick_label: Callable[[float], str],
+            ylim: tuple[float, float], yticks: Sequence[float], legend: tuple[LegendLine, ...],
+            marks: Sequence[Mark] = (), log_x: bool = False) -> Drawing:
+    """Draw one curve ``y(x)`` with labelled vertical marks; legend lines below the axes.
+
+    Args:
+        x: Abscissae (all > 0 when ``log_x``).
+        y: Values, clipped to ``ylim``.
+        request: Size and style; the legend's lines come out of its height.
+        xlabel: Label of the x axis.
+        ylabel: Label of the y axis.
+        xlim: x axis range.
+        xticks: Tick positions on the x axis.
+        xtick_label: Text of each x tick.
+        ylim: y axis range.
+        yticks: Tick positions on the y axis.
+        legend: Lines under the plot.
+        marks: Vertical lines (equivalence points, the current value).
+        log_x: Logarithmic x axis.
+
+    Returns:
+        The plot and its legend, together at most ``request`` in size.
+    """
+    from plotext._figure import _figure_class  # noqa: PLC0415 - deferred: 35 ms, only needed in the worker
+
+    style, width = request.style, request.width
+    height = request.height - len(legend)
+    fig = _figure_class()
+    fig.plotsize(width, height)
+    fig._set_size(width, height)
+    fig.theme("clear")
+
+    def to_plot(v):                                  # positions as the axis spaces them
+        return np.log10(v) if log_x else np.asarray(v, dtype=float)
+
+    def from_plot(v):
+        return 10.0 ** v if log_x else v
+
+    p_lo, p_hi = (float(v) for v in to_plot(np.array(xlim)))
+    ok = np.isfinite(y)
+    px, py = simplify(to_plot(x[ok]), np.clip(y[ok], *ylim), (p_hi - p_lo) / (2 * width),
+                      (ylim[1] - ylim[0]) / (4 * height))
+    fig.plot(from_plot(px), py, marker=style.marker(0), color=style.color(0))
+    if log_x:
+        fig.xscale("log")
+    fig.xlim(p_lo, p_hi)                             # plotext takes log limits on a log axis
+    fig.ylim(*ylim)
+    fig.xticks(list(xticks), [xtick_label(t) for t in xticks])
+    fig.yticks(list(yticks), [f"{t:g}" for t in yticks])
+    fig.xlabel(_say(xlabel, request))
+    fig.ylabel(_say(ylabel, request))
+    pad = 0.01 * (p_hi - p_lo)
+    for mark in marks:
+        at = float(to_plot(np.array(mark.x)))
+        if not p_lo <= at <= p_hi:
+            continue
+        fig.vline(mark.x, style.guide)
+        right = at > p_lo + 0.7 * (p_hi - p_lo)
+        fig.text(_say(mark.label, request), x=float(from_plot(at - pad if right else at + pad)), y=ylim[1], color=style.guide,
+                 alignment="right" if right else "left")
+    out = fig.build().rstrip("\n")
+    if style.ascii:
+        out = out.translate(_BOX_TO_ASCII)
+    return Drawing(out, legend)
+
+
+def _unconverged(flags: np.ndarray) -> list[str]:
+    bad = int((~flags).sum())
+    return [f"{bad} point{'s' * (bad != 1)} did not converge (unreliable)"] if bad else []
+
+
+def _x_ticks(request: PlotRequest, lo: float, hi: float, label_width: int) -> list[float]:
+    return ticks_within(lo, hi, max(2, request.width // (label_width + 6)))
+
+
+def _y_most(canvas_rows: int) -> int:
+    """Most y intervals for a canvas this tall (a tick every third row or more)."""
+    return max(2, canvas_rows // 3)
+
+
+def _still_wanted(_fraction: float) -> bool:
+    """``progress`` for chem.curves: stop computing once the worker asking was cancelled."""
+    from textual.worker import NoActiveWorker, get_current_worker  # noqa: PLC0415 - worker threads only
+
+    try:
+        return not get_current_worker().is_cancelled
+    except NoActiveWorker:
+        return True
+
+
+# --------------------------------------------------------------------------
+# the kinds
+# --------------------------------------------------------------------------
+
+def build_titration(result: chem.Equilibrium, request: PlotRequest,
+                    settings: TitrationSettings | None = None) -> Drawing:
+    """pH vs titrant added, with each equivalence point marked and listed under the plot."""
+    settings = settings or default_titration(result)
+    mixture = result.mixture
+    titrant, conc, sample, to = settings.resolve(mixture)
+    n = grid_points(request.width)
+    curve = chem.titration(mixture, titrant, conc, sample, to, points=n,
+                           max_points=max(n, MAX_TITRATION_POINTS), progress=_still_wanted)
+    eqp = curve.equivalence_points
+    many = len(eqp) > 1
+    marks = [Mark(e.volume_mL, f"EP{i + 1}" if many else "EP") for i, e in enumerate(eqp)]
+    notes = [f"{'EP' + str(i + 1) if many else 'equivalence'} {e.volume_mL:.3f} mL, pH {e.pH:.2f}"
+             for i, e in enumerate(eqp)] or [f"no clear equivalence point up to {settings.to_text.strip()}"]
+    notes += _unconverged(curve.converged)
+    first = _series_line(request, f"pH · {settings.titrant_conc_text.strip()} {titrant.name} into "
+                                  f"{settings.sample_text.strip()}")
+    legend = _notes(first, notes, request)
+    x = np.asarray(curve.x)
+    ylim, yticks = ph_axis(curve.pH, _y_most(request.height - len(legend)))
+    return draw_xy(x, curve.pH, request, xlabel="titrant added (mL)", ylabel="pH",
+                   xlim=(float(x[0]), float(x[-1])), xticks=_x_ticks(request, float(x[0]), float(x[-1]), 5),
+                   xtick_label=lambda t: f"{t:g}", ylim=ylim, yticks=yticks, legend=legend, marks=marks)
+
+
+def build_capacity(result: chem.Equilibrium, request: PlotRequest) -> Drawing:
+    """Buffer capacity β vs pH, with a line at the current pH and β there under the plot.
+
+    The y axis is scaled to the buffering between pH 3 and 11 (and the current pH): near pH 0
+    and 14 water's own β grows to about 2 M/pH and runs off the top, else it would flatten
+    the buffer's peaks to nothing.
+    """
+    grid = np.linspace(0.0, 14.0, grid_points(request.width))
+    cap = chem.buffer_capacity(result.mixture, grid, progress=_still_wanted)
+    here = chem.buffer_capacity_at(result)
+    shown = float(f"{here:.3g}")                     # three digits are all a reader needs
+    notes = [f"β {chem.format_molar(shown)}/pH at pH {result.pH:.2f}", *_unconverged(cap.converged)]
+    note_line = _fit(((" · ".join(notes), None),), request.width)
+    inner = replace(request, height=request.height - 1)
+    middle = cap.beta[(cap.pH >= SCALE_PH[0]) & (cap.pH <= SCALE_PH[1]) & np.isfinite(cap.beta)]
+    top_value = max(float(middle.max()) if middle.size else 0.0, here)
+    top_value = top_value if top_value > 0 else 1e-3
+    most = _y_most(inner.height - 2)
+    step = _step(top_value, most)
+    top = step * math.ceil(top_value / step - 1e-9)
+    drawing = draw(cap.pH, [("β, buffer capacity", cap.beta)], result.pH, inner, ylabel=_say("β (M/pH)", request),
+                   ylim=(0.0, top), yticks=ticks_within(0.0, top, most))
+    return Drawing(drawing.canvas, drawing.legend + (note_line,))
+
+
+def build_sweep(result: chem.Equilibrium, request: PlotRequest, settings: SweepSettings | None = None) -> Drawing:
+    """pH vs the amount of one ingredient, or vs the temperature, with a line at the current value."""
+    mixture = result.mixture
+    settings = settings or default_sweep(mixture)
+    vary, values = settings.resolve(mixture)
+    curve = chem.sweep(mixture, vary, values, progress=_still_wanted)
+    x = np.asarray(curve.x)
+    lo, hi = float(x[0]), float(x[-1])
+    if settings.is_temperature:
+        now, xlabel, label, label_width = mixture.temperature_c, "temperature (°C)", lambda t: f"{t:g}", 4
+        now_text = f"now {now:g} °C"
+    else:
+        now = settings.ingredient(mixture).conc
+        xlabel, label, label_width = vary, chem.format_molar, 8
+        now_text = f"now {chem.format_molar(now)}"
+    notes = [f"pH {curve.pH[0]:.3f} at {settings.from_text.strip()}, {curve.pH[-1]:.3f} at "
+             f"{settings.to_text.strip()}", *_unconverged(curve.converged)]
+    legend = _notes(_series_line(request, f"pH as {vary} varies"), notes, request)
+    ylim, yticks = ph_axis(curve.pH, _y_most(request.height - len(legend)))
+    return draw_xy(x, curve.pH, request, xlabel=xlabel, ylabel="pH", xlim=(lo, hi),
+                   xticks=_x_ticks(request, lo, hi, label_width), xtick_label=label, ylim=ylim, yticks=yticks,
+                   legend=legend, marks=[Mark(now, now_text)])
+
+
+def build_dilution(result: chem.Equilibrium, request: PlotRequest) -> Drawing:
+    """pH vs dilution factor with water, on a logarithmic axis from undiluted to 1000-fold."""
+    curve = chem.dilution(result.mixture, np.logspace(0.0, math.log10(DILUTION_TO), grid_points(request.width)),
+                          progress=_still_wanted)
+    x = np.asarray(curve.x)
+    notes = [f"pH {curve.pH[0]:.3f} undiluted, {curve.pH[-1]:.3f} at {DILUTION_TO:g}-fold",
+             *_unconverged(curve.converged)]
+    legend = _notes(_series_line(request, "pH on dilution with water"), notes, request)
+    ylim, yticks = ph_axis(curve.pH, _y_most(request.height - len(legend)))
+    decades = [10.0 ** k for k in range(0, int(round(math.log10(DILUTION_TO))) + 1)]
+    return draw_xy(x, curve.pH, request, xlabel="dilution factor (log scale)", ylabel="pH",
+                   xlim=(1.0, DILUTION_TO), xticks=decades, xtick_label=lambda t: f"{t:g}", ylim=ylim,
+                   yticks=yticks, legend=legend, log_x=True)
+
+
+def _guarded(build: Callable[[chem.Equilibrium, PlotRequest], Drawing]) -> Callable[
+        [chem.Equilibrium, PlotRequest], Drawing]:
+    """``build`` with chem's one-line errors (bad settings, ...) drawn as a note instead of raised."""
+
+    def run(result: chem.Equilibrium, request: PlotRequest) -> Drawing:
+        try:
+            drawing = build(result, request)
+        except chem.ChemError as exc:
+            drawing = Drawing(f"{exc}\nPress v to change the curve's settings.", note=True)
+        except curves.Cancelled:
+            drawing = Drawing("cancelled", note=True)
+        return _ascii_drawing(drawing) if request.style.ascii else drawing
+
+    return run
+
+
+def titration_kind(settings: TitrationSettings | None = None) -> PlotKind:
+    """pH vs titrant added (None: :func:`default_titration` of the mixture on display)."""
+    title = "titration" if settings is None else f"titration with {settings.titrant_name.strip()}"
+    return PlotKind("titration", title, _guarded(lambda r, q: build_titration(r, q, settings)))
+
+
+def capacity_kind() -> PlotKind:
+    """Buffer capacity β vs pH."""
+    return PlotKind("capacity", "buffer capacity vs pH", _guarded(build_capacity))
+
+
+def sweep_kind(settings: SweepSettings | None = None) -> PlotKind:
+    """pH vs one ingredient's amount or the temperature (None: :func:`default_sweep`)."""
+    title = "pH sweep" if settings is None else f"pH vs {settings.vary.strip()}"
+    return PlotKind("sweep", title, _guarded(lambda r, q: build_sweep(r, q, settings)))
+
+
+def dilution_kind() -> PlotKind:
+    """pH vs dilution factor."""
+    return PlotKind("dilution", "pH vs dilution", _guarded(build_dilution))
+
+
+def curve_kinds(titration: TitrationSettings | None = None,
+                sweep: SweepSettings | None = None) -> tuple[PlotKind, ...]:
+    """The four curve kinds with these settings, in the order the chart cycles through them."""
+    return titration_kind(titration), capacity_kind(), sweep_kind(sweep), dilution_kind()
+
+
+def draw_kind(kind: PlotKind, result: chem.Equilibrium, request: PlotRequest) -> Drawing:
+    """``kind``'s plot for ``request``, or a short note when the area is too small to draw in.
+
+    Works for every :class:`PlotKind` (those of :data:`PLOT_KINDS` too); runs in a worker thread.
+    """
+    if request.width < MIN_WIDTH or request.height < MIN_HEIGHT:
+        return Drawing(f"Enlarge the window to see the plot (needs {MIN_WIDTH}x{MIN_HEIGHT} cells).", note=True)
+    return kind.build(result, request)
