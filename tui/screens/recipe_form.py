@@ -13,7 +13,8 @@ API:
     ctrl+l or the button), with ``("save", recipe)`` ("save as preset": ctrl+s or the
     button), or with None (escape).
     ``recipe_lines(recipe)``: the result as text lines (what the form shows).
-    ``Cycler``: a one-line choice among a few values (←/→ or space), also used by the sweep form.
+    ``Cycler``: a one-line choice among a few values (←/→ or space), also used by the sweep form;
+    ``show_text(label, text)``, ``named(field, error)``, ``first_problem(...)``: shared with the setup forms.
 
 Wiring into ``tui/app.py``::
 
@@ -319,17 +320,17 @@ class RecipeForm(ModalScreen["Recipe | tuple[str, Recipe] | None"]):
         """One-line problems of the fields chem can check at once (the salt is checked by the design)."""
         problems: dict[str, str] = {}
 
-        def check(key: str, read) -> None:
+        def check(key: str, field: str, read) -> None:
             try:
                 read(self._text(key))
             except chem.ChemError as exc:
-                problems[key] = str(exc)
+                problems[key] = named(field, exc)
 
-        check("system", lambda s: s and self.library.system(s))
-        check("ph", lambda s: read_number(s, "target pH") if s else _missing("target pH"))
-        check("temp", lambda s: chem.Mixture((), temperature_c=read_celsius(s, "temperature")))
-        check("total", lambda s: chem.parse_concentration(s) if s else _missing("total concentration"))
-        check("volume", lambda s: chem.parse_volume(s) if s else _missing("final volume"))
+        check("system", "system", lambda s: s and self.library.system(s))
+        check("ph", "target pH", lambda s: read_number(s, "target pH") if s else _missing())
+        check("temp", "temperature", lambda s: chem.Mixture((), temperature_c=read_celsius(s, "temperature")))
+        check("total", "total concentration", lambda s: chem.parse_concentration(s) if s else _missing())
+        check("volume", "final volume", lambda s: chem.parse_volume(s) if s else _missing())
         return problems
 
     def ask(self) -> RecipeAsk:
@@ -354,7 +355,7 @@ class RecipeForm(ModalScreen["Recipe | tuple[str, Recipe] | None"]):
             self.query_one(f"#recipe-{key}", Input).set_class(key in problems, "-invalid")
         self.query_one("#recipe-scroll").add_class("-stale")
         if problems:
-            self._error = next(iter(problems.values()))
+            self._error = first_problem(problems, self, "recipe-")
             self._then = None
             self._status(self._error, error=True)
             return
@@ -406,7 +407,7 @@ class RecipeForm(ModalScreen["Recipe | tuple[str, Recipe] | None"]):
 
     def _status(self, text: str, *, error: bool = False) -> None:
         status = self.query_one("#recipe-status", Label)
-        status.update(Content(text))
+        show_text(status, text)
         status.set_class(error, "dialog-error")
 
     # -- actions -----------------------------------------------------------------------------
@@ -442,5 +443,23 @@ class RecipeForm(ModalScreen["Recipe | tuple[str, Recipe] | None"]):
         self.dismiss(None)
 
 
-def _missing(what: str) -> None:
-    raise chem.UnitError(f"{what}: required")
+def show_text(label: Label, text: str) -> None:
+    """Show ``text`` in ``label`` as it is (never read as markup), redrawing only when it changed."""
+    if str(label.content) != text:
+        label.update(Content(text))
+
+
+def first_problem(problems: dict[str, str], screen: ModalScreen, prefix: str) -> str:
+    """The problem of the field being typed in (id ``prefix`` + key), else the first one, else ""."""
+    focused = screen.focused.id if screen.focused is not None and screen.focused.id else ""
+    return problems.get(focused.removeprefix(prefix)) or next(iter(problems.values()), "")
+
+
+def named(field: str, error: Exception) -> str:
+    """``error``'s message led by the name of the field it is about (unless it already is)."""
+    message = str(error)
+    return message if message.casefold().startswith(field.casefold()) else f"{field}: {message}"
+
+
+def _missing() -> None:
+    raise chem.UnitError("required")

@@ -19,13 +19,12 @@ from textual import on
 from textual.app import ComposeResult
 from textual.binding import Binding
 from textual.containers import Horizontal, Vertical
-from textual.content import Content
 from textual.screen import ModalScreen
 from textual.widgets import Input, Label
 
 import chem
 from chem.curves import ingredient_index
-from tui.screens.recipe_form import Cycler
+from tui.screens.recipe_form import Cycler, first_problem, named, show_text
 from tui.widgets.curve_kinds import MAX_SWEEP_POINTS, SweepSettings, default_sweep
 
 TEMPERATURE = "temperature"
@@ -131,15 +130,13 @@ class SweepSetup(ModalScreen["SweepSettings | None"]):
             try:
                 values[key] = draft.value(self._text(key), self.mixture, key)
             except chem.ChemError as exc:
-                message = str(exc)
-                out[key] = message if message.startswith(f"{key}:") else f"{key}: {message}"
+                out[key] = named(key, exc)
         if not out and not values["to"] > values["from"]:
             out["to"] = f"to: must be above 'from' ({self._text('from')})"
         try:
             SweepSettings(self.vary, "", "", self._points()).check_points()
         except chem.ChemError as exc:
-            message = str(exc)
-            out["points"] = message if message.startswith("points") else f"points: {message}"
+            out["points"] = named("points", exc)
         return out
 
     def current(self) -> SweepSettings:
@@ -150,7 +147,7 @@ class SweepSetup(ModalScreen["SweepSettings | None"]):
         problems = self.problems()
         for key, _ in self.FIELDS:
             self.query_one(f"#sweep-{key}", Input).set_class(key in problems, "-invalid")
-        self.query_one("#sweep-error", Label).update(Content(next(iter(problems.values()), "")))
+        show_text(self.query_one("#sweep-error", Label), first_problem(problems, self, "sweep-"))
         return problems
 
     # -- events ------------------------------------------------------------------------------
@@ -167,6 +164,9 @@ class SweepSetup(ModalScreen["SweepSettings | None"]):
     @on(Input.Changed)
     def _changed(self) -> None:
         self._check()
+
+    def on_descendant_focus(self) -> None:
+        self._check()                                   # show the problem of the field now being typed in
 
     @on(Input.Submitted)
     def _submitted(self, event: Input.Submitted) -> None:

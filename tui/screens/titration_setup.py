@@ -26,6 +26,7 @@ from textual.widgets.option_list import Option
 
 import chem
 from tui.screens.finder import matching_reagents
+from tui.screens.recipe_form import first_problem, named, show_text
 from tui.widgets.curve_kinds import (DEFAULT_SAMPLE, DEFAULT_TITRANT_CONC, DEFAULT_TO, TitrationSettings)
 
 #: Most titrant matches listed under the field while typing.
@@ -125,20 +126,19 @@ class TitrationSetup(ModalScreen["TitrationSettings | None"]):
     def problems(self) -> dict[str, str]:
         """Field key -> one-line problem, for every field chem refuses."""
         settings = self.current()
+        labels = {key: label for key, label, _ in self.FIELDS}
         out: dict[str, str] = {}
-        titrant = None
         try:
             titrant = settings.titrant(self.mixture, self.library)
         except chem.ChemError as exc:
-            out["titrant"] = f"titrant: {exc}"
-        labels = {key: label for key, label, _ in self.FIELDS}
+            titrant = None
+            out["titrant"] = named(labels["titrant"], exc)
         for key, read in (("conc", lambda: settings.titrant_conc(titrant)), ("sample", settings.sample_volume),
                           ("to", settings.to_volume)):
             try:
                 read()
             except chem.ChemError as exc:
-                message = str(exc)
-                out[key] = message if message.startswith(f"{labels[key]}:") else f"{labels[key]}: {message}"
+                out[key] = named(labels[key], exc)
         return out
 
     def _check(self) -> dict[str, str]:
@@ -146,8 +146,7 @@ class TitrationSetup(ModalScreen["TitrationSettings | None"]):
         problems = self.problems()
         for key, _, _ in self.FIELDS:
             self.query_one(f"#titration-{key}", Input).set_class(key in problems, "-invalid")
-        first = next(iter(problems.values()), "")
-        self.query_one("#titration-error", Label).update(Content(first))
+        show_text(self.query_one("#titration-error", Label), first_problem(problems, self, "titration-"))
         return problems
 
     # -- titrant matches ---------------------------------------------------------------------
@@ -159,7 +158,8 @@ class TitrationSetup(ModalScreen["TitrationSettings | None"]):
         found: list[chem.Reagent] = []
         if query.strip():
             key = query.strip().casefold()
-            found = [i.reagent for i in self.mixture.ingredients if i.reagent.custom and key in i.reagent.name.casefold()]
+            found = [i.reagent for i in self.mixture.ingredients
+                     if i.reagent.custom and key in i.reagent.name.casefold()]
             found += [r for r in matching_reagents(self.library, query) if r not in found]
         found = found[:MAX_MATCHES]
         try:
@@ -167,11 +167,12 @@ class TitrationSetup(ModalScreen["TitrationSettings | None"]):
             exact = True                              # the text names a reagent already: nothing to pick
         except chem.ChemError:
             exact = False
-        listing.set_options([Option(Content.assemble((r.name, "bold"), "  ", (r.formula, "dim")), id=r.name)
-                             for r in found])
+        if [r.name for r in found] != [listing.get_option_at_index(i).id for i in range(listing.option_count)]:
+            listing.set_options([Option(Content.assemble((r.name, "bold"), "  ", (r.formula, "dim")), id=r.name)
+                                 for r in found])
+            if found:
+                listing.highlighted = 0
         listing.display = bool(found) and not exact
-        if found:
-            listing.highlighted = 0
 
     def check_action(self, action: str, parameters: tuple[object, ...]) -> bool | None:
         if action == "match":
@@ -202,6 +203,9 @@ class TitrationSetup(ModalScreen["TitrationSettings | None"]):
             self._fill_matches(event.value)
         self._check()
 
+    def on_descendant_focus(self) -> None:
+        self._check()                                   # show the problem of the field now being typed in
+
     @on(Input.Blurred, "#titration-titrant")
     def _left_titrant(self) -> None:
         self.query_one("#titrant-matches").display = False
@@ -225,3 +229,4 @@ class TitrationSetup(ModalScreen["TitrationSettings | None"]):
 
     def action_cancel(self) -> None:
         self.dismiss(None)
+

@@ -76,14 +76,16 @@ from __future__ import annotations
 
 import math
 import re
+import textwrap
 from dataclasses import dataclass, replace
 from typing import Callable, Sequence
 
 import numpy as np
+from textual.worker import NoActiveWorker, get_current_worker
 
 import chem
 from chem import curves
-from tui.widgets.plot_kinds import (_BOX_TO_ASCII, MIN_HEIGHT, MIN_WIDTH, Drawing, LegendLine, PlotKind,
+from tui.widgets.plot_kinds import (_BOX_TO_ASCII, MIN_HEIGHT, MIN_WIDTH, RGB, Drawing, LegendLine, PlotKind,
                                     PlotRequest, draw, grid_points, simplify)
 
 #: The ids of the kinds made here, in the order the chart cycles through them.
@@ -98,6 +100,8 @@ NEUTRAL_PH = 7.0
 #: Default sweep of the temperature, °C, and the number of points of a sweep.
 DEFAULT_T_RANGE = ("5", "50")
 DEFAULT_SWEEP_POINTS = 101
+#: Top of the default sweep of an ingredient whose amount is zero (otherwise twice its amount).
+DEFAULT_AMOUNT_TOP = "10 mM"
 #: Most points a sweep may ask for (each is solved; more than the plot shows is wasted).
 MAX_SWEEP_POINTS = 2000
 #: Dilution factors plotted: from undiluted to this.
@@ -220,6 +224,7 @@ class SweepSettings:
         return chem.parse_concentration(text, molar_mass=reagent.molar_mass)
 
     def check_points(self) -> int:
+        """``points``, if it is a whole number in the range a sweep may ask for."""
         if isinstance(self.points, bool) or not isinstance(self.points, int) or \
                 not 2 <= self.points <= MAX_SWEEP_POINTS:
             raise curves.CurveError(f"points must be a whole number from 2 to {MAX_SWEEP_POINTS} "
@@ -248,8 +253,8 @@ def default_sweep(mixture: chem.Mixture, vary: str | None = None) -> SweepSettin
     if vary.strip().casefold() == "temperature":
         return SweepSettings("temperature", *DEFAULT_T_RANGE)
     ingredient = mixture.ingredients[curves.ingredient_index(mixture, vary)]
-    top = 2 * ingredient.conc if ingredient.conc > 0 else 0.01
-    return SweepSettings(ingredient.reagent.name, "0", chem.format_molar(top))
+    top = chem.format_molar(2 * ingredient.conc) if ingredient.conc > 0 else DEFAULT_AMOUNT_TOP
+    return SweepSettings(ingredient.reagent.name, "0", top)
 
 
 # --------------------------------------------------------------------------
@@ -266,26 +271,33 @@ def _step(span: float, most: int) -> float:
     return 10.0 * mag
 
 
-def ticks_within(lo: float, hi: float, most: int) -> list[float]:
-    """Round tick positions inside [lo, hi], at most ``most`` + 1 of them."""
-    step = _step(hi - lo, most)
+def _multiples(lo: float, hi: float, step: float) -> list[float]:
+    """The multiples of ``step`` in [lo, hi], rounded to clean decimals."""
     first = math.ceil(lo / step - 1e-9)
     last = math.floor(hi / step + 1e-9)
     return [float(f"{k * step:.10g}") for k in range(first, last + 1)]
 
 
+def ticks_within(lo: float, hi: float, most: int) -> list[float]:
+    """Round tick positions inside [lo, hi], at most ``most`` + 1 of them."""
+    return _multiples(lo, hi, _step(hi - lo, most))
+
+
+def widened(lo: float, hi: float, most: int) -> tuple[tuple[float, float], list[float]]:
+    """[lo, hi] widened out to round ticks (about ``most`` intervals), and those ticks."""
+    step = _step(hi - lo, most)
+    ticks = _multiples(step * math.floor(lo / step + 1e-9), step * math.ceil(hi / step - 1e-9), step)
+    return (ticks[0], ticks[-1]), ticks
+
+
 def ph_axis(values: np.ndarray, most: int) -> tuple[tuple[float, float], list[float]]:
-    """A y range (widened to round ticks, at least :data:`MIN_PH_SPAN` wide) and its ticks for pH values."""
+    """A y range for pH values, widened to round ticks and at least :data:`MIN_PH_SPAN` wide, and its ticks."""
     finite = values[np.isfinite(values)]
     lo, hi = (float(finite.min()), float(finite.max())) if finite.size else (0.0, 14.0)
     if hi - lo < MIN_PH_SPAN:
         mid = 0.5 * (lo + hi)
         lo, hi = mid - MIN_PH_SPAN / 2, mid + MIN_PH_SPAN / 2
-    step = _step(hi - lo, most)
-    bottom = step * math.floor(lo / step + 1e-9)
-    top = step * math.ceil(hi / step - 1e-9)
-    ticks = ticks_within(bottom, top, most)
-    return (ticks[0], ticks[-1]), ticks
+    return widened(lo, hi, most)
 
 
 # --------------------------------------------------------------------------
@@ -305,7 +317,7 @@ def _legend_rows(request: PlotRequest) -> int:
     return max(1, min(3, (request.height - 7) // 4 + 1))
 
 
-def _fit(pieces: Sequence[tuple[str, "tuple[int, int, int] | None"]], width: int) -> LegendLine:
+def _fit(pieces: Sequence[tuple[str, RGB | None]], width: int) -> LegendLine:
     """One legend line cut to ``width`` cells (an ellipsis marks the cut)."""
     out, used = [], 0
     for text, rgb in pieces:
@@ -406,8 +418,8 @@ def draw_xy(x: np.ndarray, y: np.ndarray, request: PlotRequest, *, xlabel: str, 
             continue
         fig.vline(mark.x, style.guide)
         right = at > p_lo + 0.7 * (p_hi - p_lo)
-        fig.text(_say(mark.label, request), x=float(from_plot(at - pad if right else at + pad)), y=ylim[1], color=style.guide,
-                 alignment="right" if right else "left")
+        fig.text(_say(mark.label, request), x=float(from_plot(at - pad if right else at + pad)), y=ylim[1],
+                 color=style.guide, alignment="right" if right else "left")
     out = fig.build().rstrip("\n")
     if style.ascii:
         out = out.translate(_BOX_TO_ASCII)
@@ -430,8 +442,6 @@ def _y_most(canvas_rows: int) -> int:
 
 def _still_wanted(_fraction: float) -> bool:
     """``progress`` for chem.curves: stop computing once the worker asking was cancelled."""
-    from textual.worker import NoActiveWorker, get_current_worker  # noqa: PLC0415 - worker threads only
-
     try:
         return not get_current_worker().is_cancelled
     except NoActiveWorker:
@@ -484,11 +494,9 @@ def build_capacity(result: chem.Equilibrium, request: PlotRequest) -> Drawing:
     middle = cap.beta[(cap.pH >= SCALE_PH[0]) & (cap.pH <= SCALE_PH[1]) & np.isfinite(cap.beta)]
     top_value = max(float(middle.max()) if middle.size else 0.0, here)
     top_value = top_value if top_value > 0 else 1e-3
-    most = _y_most(inner.height - 2)
-    step = _step(top_value, most)
-    top = step * math.ceil(top_value / step - 1e-9)
+    ylim, yticks = widened(0.0, top_value, _y_most(inner.height - 2))
     drawing = draw(cap.pH, [("β, buffer capacity", cap.beta)], result.pH, inner, ylabel=_say("β (M/pH)", request),
-                   ylim=(0.0, top), yticks=ticks_within(0.0, top, most))
+                   ylim=ylim, yticks=yticks)
     return Drawing(drawing.canvas, drawing.legend + (note_line,))
 
 
@@ -539,7 +547,8 @@ def _guarded(build: Callable[[chem.Equilibrium, PlotRequest], Drawing]) -> Calla
         try:
             drawing = build(result, request)
         except chem.ChemError as exc:
-            drawing = Drawing(f"{exc}\nPress v to change the curve's settings.", note=True)
+            text = "\n".join(textwrap.wrap(str(exc), request.width) + ["Press v to change the curve's settings."])
+            drawing = Drawing(text, note=True)
         except curves.Cancelled:
             drawing = Drawing("cancelled", note=True)
         return _ascii_drawing(drawing) if request.style.ascii else drawing
