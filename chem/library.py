@@ -16,7 +16,7 @@ from .errors import ChemError, LibraryError
 from .model import AcidBaseSystem, Ion, Reagent, charge_from_name
 
 _SYSTEM_KEYS = {"name", "species", "pKa", "dH_kJ", "dCp_J", "charge_fully_protonated", "ion_size_A",
-                "T_range_c", "aliases", "hazard", "source"}
+                "T_range_c", "aliases", "hazard", "source", "buffer"}
 _SYSTEM_REQUIRED = {"name", "species", "pKa", "charge_fully_protonated", "source"}
 _ION_KEYS = {"name", "charge", "ion_size_A", "molar_mass", "source"}
 _REAGENT_KEYS = {"name", "formula", "system", "units", "protons", "counter_ions", "molar_mass",
@@ -168,7 +168,8 @@ def parse_system(entry: dict, where: str) -> AcidBaseSystem:
             dcp_j=tuple(entry["dCp_J"]) if "dCp_J" in entry else None,
             ion_size_a=float(entry.get("ion_size_A", 4.0)),
             t_range_c=(float(t_range[0]), float(t_range[1])) if t_range else None,
-            aliases=tuple(entry.get("aliases", ())), hazard=hazard, source=entry["source"])
+            aliases=tuple(entry.get("aliases", ())), hazard=hazard, source=entry["source"],
+            buffer=bool(entry.get("buffer", True)))
     except ChemError as exc:
         raise LibraryError(f"{where}: {exc}") from None
     for k, sp in enumerate(sys_.species):

@@ -85,6 +85,8 @@ class AcidBaseSystem:
     hazard: str | None = None
     source: str = ""
     custom: bool = False
+    buffer: bool = True
+    """Offered as a pH buffer by the recipe designer (False for chelators and metal ions)."""
 
     def __post_init__(self) -> None:
         owner = f"system {self.name!r}"
@@ -212,14 +214,14 @@ class Ingredient:
         return replace(self, conc=float(conc), text=text)
 
 
-def format_molar(c: float) -> str:
-    """A concentration with a readable unit: 0.03 -> "30 mM"."""
+def format_molar(c: float, digits: int = 6) -> str:
+    """A concentration with a readable unit and ``digits`` significant digits: 0.03 -> "30 mM"."""
     if c == 0:
         return "0 M"
     for unit, f in (("M", 1.0), ("mM", 1e-3), ("uM", 1e-6), ("nM", 1e-9)):
         if c >= f * 0.9999999:
-            return f"{c / f:.6g} {unit}"
-    return f"{c:.3g} M"
+            return f"{c / f:.{digits}g} {unit}"
+    return f"{c:.{digits}g} M"
 
 
 @dataclass(frozen=True)

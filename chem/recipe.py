@@ -785,12 +785,13 @@ def suggest_systems(target_pH: float, temperature_c: float = 25.0, *, total=SUGG
     """Rank the library's buffer systems for a target pH at a working temperature.
 
     A system qualifies when one of its pKa values at ``temperature_c`` lies
-    within ±1 of the target (common practice), it is not marked hazardous
-    and the library has a reagent of it.  Systems are ranked by
+    within ±1 of the target (common practice), it is not marked hazardous,
+    it is a buffer and the library has a reagent of it.  Systems are ranked by
     ``|target − pKa| + |dpKa/dT| × 10 K``: closeness to the pKa (capacity)
     plus the drift over a 10 K difference between making and using.
-    Without enthalpy data a system ranks after those with it (its drift is unknown)
-    unless the working temperature is 25 °C.
+    Without enthalpy data a system ranks after those with it (its drift is
+    unknown); chelators and metal ions (``buffer = false`` in the library) are
+    not offered.
 
     Parameters
     ----------
@@ -821,7 +822,7 @@ def suggest_systems(target_pH: float, temperature_c: float = 25.0, *, total=SUGG
         raise RecipeError(f"the number of systems to list must be at least 1 (got {limit})")
     ranked = []
     for sys_ in lib.systems:
-        if sys_.hazard or not lib.reagents_of(sys_):
+        if sys_.hazard or not sys_.buffer or not lib.reagents_of(sys_):
             continue
         pka = sys_.pka_at(temperature_c)
         k = int(np.argmin(np.abs(pka - target_pH)))
@@ -830,7 +831,7 @@ def suggest_systems(target_pH: float, temperature_c: float = 25.0, *, total=SUGG
         slopes = dpka_dt(sys_, temperature_c)
         slope = None if slopes is None else slopes[k]
         score = abs(float(pka[k]) - target_pH) + (abs(slope) * DRIFT_SPAN_K if slope is not None else 0.0)
-        unknown_drift = slope is None and abs(temperature_c - 25.0) > 0.5
+        unknown_drift = slope is None        # a buffer is rarely used only where it was made
         ranked.append(((unknown_drift, score), sys_, k, float(pka[k]), slope, score))
     ranked.sort(key=lambda t: t[0])
     if limit is not None:

@@ -35,7 +35,9 @@ from tui.messages import Plotted, Solved
 from tui.widgets.flask_list import FlaskList
 from tui.widgets.notice_bar import NoticeBar
 from tui.widgets.plot_area import PlotArea, prepare
-from tui.widgets.plot_kinds import PLOT_KINDS, PlotRequest, PlotStyle, build_plot, locale_is_utf8, plot_kind
+from tui.widgets.curve_kinds import (CURVE_KIND_IDS, SweepSettings, TitrationSettings, curve_kinds, default_sweep,
+                                     default_titration, draw_kind)
+from tui.widgets.plot_kinds import PLOT_KINDS, PlotKind, PlotRequest, PlotStyle, locale_is_utf8
 from tui.widgets.readout import Readout
 from tui.widgets.species_table import SpeciesTable
 from tui.widgets.title_bar import TitleBar
@@ -92,7 +94,10 @@ COMMANDS: tuple[Command, ...] = (
     Command("p", "pin", "Pin", "Pin this state; show changes against it (again: unpin)", True),
     Command("u,ctrl+z", "undo", "Undo", "Undo the last edit", True),
     Command("r,ctrl+y", "redo", "Redo", "Redo the edit just undone"),
-    Command("g", "next_plot", "Plot", "Switch the plot (fraction vs pH, log C vs pH)", True),
+    Command("g", "next_plot", "Plot", "Switch the plot (fractions, log C, titration, buffer capacity, sweep, "
+            "dilution)", True),
+    Command("v", "curve_setup", "Curve", "Set up the titration or sweep shown in the chart"),
+    Command("b", "recipe", "Recipe", "Design a buffer recipe and load it into the flask"),
     Command("a", "plot_scope", "All/one", "Plot all systems or only the selected ingredient's"),
     Command("w", "notices", "Notices", "Explain the current warnings and cautions"),
     Command("s,ctrl+s", "save", "Save", "Save the mixture as a preset", True),
@@ -124,6 +129,8 @@ class ExplorerApp(App[int]):
     """Id of the plot on display."""
     plot_all: var[bool] = var(False, init=False)
     """Plot every system (True) or only the selected ingredient's (False)."""
+    capacity: var[float | None] = var(None, init=False)
+    """Buffer capacity β of :attr:`result` at its pH, mol/(L·pH)."""
 
     def __init__(self, mixture: chem.Mixture, *, source: str = "", preset_name: str = "") -> None:
         """Create the explorer.
@@ -148,13 +155,15 @@ class ExplorerApp(App[int]):
         self._autosave_on = False
         self._enabled: tuple[bool, ...] = ()
         self._utf8 = locale_is_utf8()
+        self._titration: TitrationSettings | None = None   # None: default_titration(result)
+        self._sweep: SweepSettings | None = None           # None: default_sweep(mixture)
 
     # -- layout ------------------------------------------------------------------------------
     def compose(self) -> ComposeResult:
         yield TitleBar(id="title-bar")
         with Horizontal(id="upper"):
             yield FlaskList(self._start, id="flask").data_bind(ExplorerApp.mixture)
-            yield Readout(id="readout").data_bind(ExplorerApp.result, ExplorerApp.pinned)
+            yield Readout(id="readout").data_bind(ExplorerApp.result, ExplorerApp.pinned, ExplorerApp.capacity)
         with Horizontal(id="lower"):
             yield SpeciesTable(id="species").data_bind(ExplorerApp.result, ExplorerApp.pinned)
             yield PlotArea(id="chart")
@@ -232,6 +241,14 @@ class ExplorerApp(App[int]):
         return ingredients[self.selected_index] if 0 <= self.selected_index < len(ingredients) else None
 
     # -- solving and plotting ------------------------------------------------------------------
+    @property
+    def kinds(self) -> tuple[PlotKind, ...]:
+        """Every plot the chart can show, the curve kinds with their current settings."""
+        return PLOT_KINDS + curve_kinds(self._titration, self._sweep)
+
+    def _kind(self) -> PlotKind:
+        return next(k for k in self.kinds if k.id == self.plot_kind)
+
     def _plot_request(self) -> PlotRequest | None:
         chart = self.query_one(PlotArea)
         size = chart.content_size
@@ -243,8 +260,11 @@ class ExplorerApp(App[int]):
         style = PlotStyle.for_terminal(dark=self.current_theme.dark, color=not self.no_color, utf8=self._utf8)
         return PlotRequest(self.plot_kind, size.width, size.height, system, style)
 
-    def _plot_title(self, request: PlotRequest) -> str:
-        return f"{plot_kind(request.kind).title} · {request.system or 'all systems'}"
+    @staticmethod
+    def _plot_title(kind: PlotKind, request: PlotRequest) -> str:
+        if kind.id in CURVE_KIND_IDS:                   # curves are about the whole mixture
+            return kind.title
+        return f"{kind.title} · {request.system or 'all systems'}"
 
     def _recompute(self) -> None:
         """Ask for a fresh solve (unless the current result is for this mixture) and plot."""
@@ -252,27 +272,31 @@ class ExplorerApp(App[int]):
             return
         self._generation += 1
         known = self.result if self.result is not None and self.result.mixture == self.mixture else None
-        self._compute(self._generation, self.mixture, known, self._plot_request(),
+        self._compute(self._generation, self.mixture, known, self._kind(), self._plot_request(),
                       self.query_one(PlotArea).rich_style)
 
     @work(thread=True, exclusive=True, group="compute", exit_on_error=False, description="solve and plot")
     def _compute(self, generation: int, mixture: chem.Mixture, known: chem.Equilibrium | None,
-                 request: PlotRequest | None, base: Style) -> None:
+                 kind: PlotKind, request: PlotRequest | None, base: Style) -> None:
         worker = get_current_worker()
-        result = known if known is not None else chem.solve(mixture)
-        if worker.is_cancelled:
-            return
         if known is None:
-            self.post_message(Solved(generation, result))
+            result = chem.solve(mixture)
+            capacity = chem.buffer_capacity_at(result) if result.converged else None
+            if worker.is_cancelled:
+                return
+            self.post_message(Solved(generation, result, capacity))
+        else:
+            result = known
         if request is None:
             return
-        image = prepare(build_plot(result, request), request.width, base)
+        image = prepare(draw_kind(kind, result, request), request.width, base)
         if not worker.is_cancelled:
-            self.post_message(Plotted(generation, image, self._plot_title(request)))
+            self.post_message(Plotted(generation, image, self._plot_title(kind, request)))
 
     @on(Solved)
     def _show_result(self, message: Solved) -> None:
         if message.generation == self._generation:
+            self.capacity = message.capacity
             self.result = message.result
             self._update_keys()
 
@@ -355,7 +379,7 @@ class ExplorerApp(App[int]):
             return bool(self._undo) or None
         if action == "redo":
             return bool(self._redo) or None
-        if action in ("pin", "notices"):
+        if action in ("pin", "notices", "curve_setup"):
             return self.result is not None or None
         return True
 
@@ -456,8 +480,58 @@ class ExplorerApp(App[int]):
         self.notify(f"{verb}: {what}", timeout=2)
 
     def action_next_plot(self) -> None:
-        ids = [k.id for k in PLOT_KINDS]
+        ids = [k.id for k in self.kinds]
         self.plot_kind = ids[(ids.index(self.plot_kind) + 1) % len(ids)]
+
+    def action_curve_setup(self) -> None:
+        from tui.screens.sweep_setup import SweepSetup
+        from tui.screens.titration_setup import TitrationSetup
+
+        if self.plot_kind == "sweep":
+            def use_sweep(settings: SweepSettings | None) -> None:
+                if settings is not None:
+                    self._sweep = settings
+                    self._recompute()
+
+            self.push_screen(SweepSetup(self.mixture, self._sweep or default_sweep(self.mixture)), use_sweep)
+            return
+
+        def use_titration(settings: TitrationSettings | None) -> None:
+            if settings is not None:
+                self._titration = settings
+                if self.plot_kind == "titration":
+                    self._recompute()
+                else:
+                    self.plot_kind = "titration"            # its watcher recomputes
+
+        current = self._titration or (default_titration(self.result) if self.result else None)
+        self.push_screen(TitrationSetup(self.mixture, current, self.library), use_titration)
+
+    def action_recipe(self) -> None:
+        from tui.screens.recipe_form import RecipeForm
+
+        def done(answer) -> None:          # chem.Recipe | tuple[str, chem.Recipe] | None
+            if answer is None:
+                return
+            if isinstance(answer, tuple):  # ("save", recipe): name it, confirm, write atomically
+                self._save_recipe(answer[1])
+                return
+            self._source = "buffer recipe"
+            self.commit(answer.mixture, f"load the {answer.system.name} recipe")   # undoable
+            self.query_one(FlaskList).select(0)
+
+        ph = round(self.result.pH, 2) if self.result is not None else None
+        self.push_screen(RecipeForm(self.library, target_pH=ph, temperature_c=self.mixture.temperature_c,
+                                    activity=self.mixture.activity), done)
+
+    def _save_recipe(self, recipe) -> None:
+        from tui.screens.save_preset import SavePreset, SaveRequest
+
+        def save(request: SaveRequest | None) -> None:
+            if request is not None:
+                self._save(replace(recipe.mixture, title=request.title), request.name, request.overwrite, False)
+
+        self.push_screen(SavePreset("", recipe.mixture.title), save)
 
     def action_plot_scope(self) -> None:
         self.plot_all = not self.plot_all
@@ -491,11 +565,12 @@ class ExplorerApp(App[int]):
         self.call_from_thread(self._saved, mixture, name, path, then_quit)
 
     def _saved(self, mixture: chem.Mixture, name: str, path: Path, then_quit: bool) -> None:
-        self._clean = mixture
-        self._preset_name = name
-        self._source = path.name
-        self.query_one(TitleBar).source = path.name
-        self.query_one(TitleBar).dirty = self.dirty
+        if mixture == self.mixture:                 # a recipe is saved without being loaded
+            self._clean = mixture
+            self._preset_name = name
+            self._source = path.name
+            self.query_one(TitleBar).source = path.name
+            self.query_one(TitleBar).dirty = self.dirty
         self.notify(f"saved to {path}", timeout=4)
         if then_quit:
             self.call_later(self._leave)

@@ -21,6 +21,8 @@ class Solved(Message):
 
     generation: int
     result: chem.Equilibrium
+    capacity: float | None = None
+    """Buffer capacity β at the solved pH, mol/(L·pH) (None when the solve did not converge)."""
 
 
 @dataclass

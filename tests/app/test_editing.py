@@ -111,7 +111,8 @@ async def test_temperature_and_activity_model_keys(acetate_buffer, settle, text_
         await pilot.press("m")
         await settle(pilot)
         conditions = text_of(app.query_one("#conditions"))
-        assert "26.0 °C" in conditions and app.mixture.activity in conditions
+        assert "26.0 °C" in conditions and "β " in conditions
+        assert app.mixture.activity in text_of(app.query_one("#solve-state"))
 
 
 async def test_remove_then_undo_and_redo_walk_the_history(acetate_buffer, settle):

@@ -87,6 +87,16 @@ async def test_g_switches_the_plot_and_a_limits_it_to_the_selected_system(settle
         assert chart.border_title == "log C vs pH · all systems"
         for system, _ in app.mixture.systems():
             assert all(name in chart.image.plain for name in system.species[:1])
+        kinds, titles, texts = [], [], []
+        for _ in range(4):                              # the curves of the whole mixture follow
+            await pilot.press("g")
+            await settle(pilot)
+            kinds.append(app.plot_kind)
+            titles.append(chart.border_title)
+            texts.append(chart.image.plain)
+        assert kinds == ["titration", "capacity", "sweep", "dilution"]
+        assert titles[1] == "buffer capacity vs pH" and "·" not in "".join(titles)
+        assert "titrant added (mL)" in texts[0] and "dilution" in texts[3]
         await pilot.press("g")
         await settle(pilot)
         assert chart.border_title == "fraction vs pH · all systems"
@@ -226,10 +236,10 @@ async def test_switching_to_the_light_theme_redraws_the_plot_in_light_theme_colo
 async def test_a_failure_in_the_background_is_reported_not_swallowed(acetate_buffer, settle, monkeypatch):
     import tui.app
 
-    def broken(result, request):
+    def broken(kind, result, request):
         raise RuntimeError("plot exploded")
 
-    monkeypatch.setattr(tui.app, "build_plot", broken)
+    monkeypatch.setattr(tui.app, "draw_kind", broken)
     app = ExplorerApp(acetate_buffer)
     async with app.run_test(size=(80, 24)) as pilot:
         await settle(pilot)

@@ -18,7 +18,7 @@ def signed(value: float, digits: int) -> str:
 
 
 class Readout(Vertical):
-    """pH (large), pOH, temperature, ionic strength, activity model, convergence and notices.
+    """pH (large), pOH, temperature, ionic strength, buffer capacity, activity model, convergence and notices.
 
     While a state is pinned, the change of pH against it is shown too. Where there is
     room, pKw, the remaining charge-balance error and each system's total follow.
@@ -28,6 +28,8 @@ class Readout(Vertical):
     """The solved mixture on display."""
     pinned: var[chem.Equilibrium | None] = var(None, init=False)
     """The state changes are measured against, or None."""
+    capacity: var[float | None] = var(None, init=False)
+    """Buffer capacity β at the current pH, mol/(L·pH), or None."""
 
     def compose(self) -> ComposeResult:
         with Horizontal(id="ph-line"):
@@ -42,6 +44,9 @@ class Readout(Vertical):
         self._redraw()
 
     def watch_pinned(self) -> None:
+        self._redraw()
+
+    def watch_capacity(self) -> None:
         self._redraw()
 
     def _show(self, selector: str, content: Content) -> None:
@@ -62,9 +67,11 @@ class Readout(Vertical):
             parts.append((f"\nΔpH {signed(eq.pH - self.pinned.pH, 3)}", "bold $accent"))
         self._show("#ph-side", Content.assemble(*parts))
         mix = eq.mixture
-        self._show("#conditions", Content(f"{mix.temperature_c:.1f} °C   I {eq.ionic_strength:.3g} M   {mix.activity}"))
+        beta = "" if self.capacity is None else f"  β {chem.format_molar(self.capacity, 3)}/pH"
+        self._show("#conditions", Content(f"{mix.temperature_c:.1f} °C  I {eq.ionic_strength:.3g} M{beta}"))
         state: list[str | tuple[str, str]] = [
-            ("✓ converged", "$success") if eq.converged else ("✗ NOT converged", "bold $error")]
+            ("✓ converged", "$success") if eq.converged else ("✗ NOT converged", "bold $error"),
+            f"  {mix.activity}"]
         if eq.cautions:
             n = len(eq.cautions)
             state += ["  ", (f"{n} caution{'s' * (n > 1)}", "bold $error")]
