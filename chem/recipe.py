@@ -710,7 +710,7 @@ def design_buffer(system: str | AcidBaseSystem | None, target_pH: float, *, temp
             except RecipeError:
                 continue
             chosen = Notice("system-chosen", f"No system given: {sug.system.name} is the best-ranked one "
-                                             f"for pH {target_pH:g} at {temperature_c:g} °C (see --suggest).")
+                                             f"for pH {target_pH:g} at {temperature_c:g} °C (see the ranked suggestions).")
             return replace(recipe, warnings=(chosen,) + recipe.warnings)
         raise RecipeError(f"no buffer system in the library suits pH {target_pH:g} at {temperature_c:g} °C "
                           f"in form '{form}'")
@@ -761,7 +761,7 @@ def design_buffer(system: str | AcidBaseSystem | None, target_pH: float, *, temp
             f"pH {target_pH:g} is {abs(gap):.2f} units {'above' if gap > 0 else 'below'} {sys_.name}'s nearest "
             f"pKa ({float(pka_t[k_near]):.2f} at {temperature_c:g} °C); a buffer holds its pH only within "
             f"about pKa ± 1 (common practice). Capacity here is only {beta * 1000:.3g} mM/pH; "
-            "choose another system (see --suggest)."))
+            "choose another system (see the ranked suggestions)."))
     if sys_.hazard:
         warnings.append(Notice("hazardous-system", f"{sys_.name} is marked hazardous ({sys_.hazard}); "
                                                    "see the cautions and the safety data sheet."))

@@ -55,3 +55,23 @@ async def test_b_designs_a_recipe_loads_it_and_undo_brings_the_old_mixture_back(
         await pilot.press("u")
         await settle(pilot)
         assert app.mixture == acetate_buffer
+
+
+async def test_markup_like_text_typed_as_an_amount_is_shown_literally(acetate_buffer, settle, text_of):
+    # Error messages quote what was typed; "[/x" must not be read as markup (it once crashed).
+    from tui.screens.finder import IngredientFinder
+
+    app = ExplorerApp(acetate_buffer)
+    async with app.run_test(size=(100, 30)) as pilot:
+        await settle(pilot)
+        await pilot.press("n")
+        await wait_until(pilot, lambda: isinstance(app.screen, IngredientFinder))
+        await fill(pilot, "NaCl")
+        await pilot.press("enter")
+        await fill(pilot, "[/x] 5")
+        await pilot.pause()
+        error = app.screen.query_one("#finder-error")
+        assert "[/x] 5" in text_of(error)
+        await pilot.press("enter")                     # refused: the mixture is unchanged
+        await settle(pilot)
+        assert app.mixture == acetate_buffer

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import re
 
+from textual.content import Content
 from textual import on
 from textual.app import ComposeResult
 from textual.binding import Binding
@@ -128,7 +129,7 @@ class CustomSpeciesForm(ModalScreen["chem.Ingredient | None"]):
         try:
             ingredient = self.build()
         except (FormError, chem.ChemError) as exc:
-            self.query_one("#custom-error", Label).update(str(exc))
+            self.query_one("#custom-error", Label).update(Content(str(exc)))
             return
         self.dismiss(ingredient)
 

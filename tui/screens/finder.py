@@ -76,7 +76,7 @@ class IngredientFinder(PickerScreen["chem.Ingredient | None"]):
     def _check_amount(self, event: Input.Changed) -> None:
         result = event.validation_result
         self.query_one("#finder-error", Label).update(
-            "" if result is None or result.is_valid else result.failure_descriptions[0])
+            Content("" if result is None or result.is_valid else result.failure_descriptions[0]))
 
     @on(Input.Submitted, "#finder-amount")
     def _add(self, event: Input.Submitted) -> None:
@@ -85,7 +85,7 @@ class IngredientFinder(PickerScreen["chem.Ingredient | None"]):
         assert isinstance(entry, AmountInput) and self.reagent is not None
         conc = entry.concentration
         if conc is None:
-            self.query_one("#finder-error", Label).update(entry.problem or "")
+            self.query_one("#finder-error", Label).update(Content(entry.problem or ""))
             return
         self.dismiss(chem.Ingredient(self.reagent, conc, entry.value.strip()))
 

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
+from textual.content import Content
 from textual import on
 from textual.app import ComposeResult
 from textual.binding import Binding
@@ -51,7 +52,7 @@ class SavePreset(ModalScreen["SaveRequest | None"]):
         try:
             storage.preset_path(event.value)
         except storage.StorageError as exc:
-            self.query_one("#save-error", Label).update(str(exc))
+            self.query_one("#save-error", Label).update(Content(str(exc)))
         else:
             self.query_one("#save-error", Label).update("")
 
@@ -62,7 +63,7 @@ class SavePreset(ModalScreen["SaveRequest | None"]):
         try:
             path = storage.preset_path(name)
         except storage.StorageError as exc:
-            self.query_one("#save-error", Label).update(str(exc))
+            self.query_one("#save-error", Label).update(Content(str(exc)))
             self.query_one("#save-name", Input).focus()
             return
         if not path.exists():

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
+from textual.content import Content
 from textual import on
 from textual.app import ComposeResult
 from textual.binding import Binding
@@ -71,7 +72,7 @@ class _FlaskRow(Vertical):
             return
         self.error = message
         self.set_class(message is not None, "-error")
-        self.query_one(".flask-error", Label).update(message or "")
+        self.query_one(".flask-error", Label).update(Content(message or ""))
         if message is not None and self.parent is not None:
             self.call_after_refresh(self.parent.scroll_to_widget, self, animate=False)
 

@@ -151,6 +151,8 @@ def simplify(x: np.ndarray, y: np.ndarray, x_step: float, y_step: float) -> tupl
     stretches shrink to their end points, which is most of a speciation curve,
     and plotext's cost grows with the number of segments drawn.
     """
+    if len(x) < 3 or not (x_step > 0 and y_step > 0):  # a flat axis: nothing to measure against
+        return x, y
     px, py = x / x_step, y / y_step
     keep = np.zeros(len(x), dtype=bool)
     keep[0] = keep[-1] = True
