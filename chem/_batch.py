@@ -342,7 +342,7 @@ def _padded(lay: _Layout, cst: _Constants, log_beta, totals, q, x, ionic) -> dic
     z2 = z * z
     lg = -ad_s[:, :, None] * z2
     w = log_beta - lg + jj * x[:, None, None]
-    e = np.power(10.0, w - _max(w, axis=2, keepdims=True))
+    e = np.exp((w - _max(w, axis=2, keepdims=True)) * _LN10)     # exp is ~3x faster than power(10, .)
     alpha = e / _sum(e, axis=2, keepdims=True)
     jbar = _sum(alpha * jj, axis=2)
     zbar = _sum(alpha * z, axis=2)
@@ -352,8 +352,8 @@ def _padded(lay: _Layout, cst: _Constants, log_beta, totals, q, x, ionic) -> dic
     var_j = _sum(alpha * dj * dj, axis=2)
     cov = _sum(alpha * dj * dz2, axis=2)
     var_z2 = _sum(alpha * dz2 * dz2, axis=2)
-    hc = np.power(10.0, x + ad_h)
-    ohc = np.power(10.0, -cst.pkw - x + ad_oh)
+    hc = np.exp((x + ad_h) * _LN10)
+    ohc = np.exp((-cst.pkw - x + ad_oh) * _LN10)
     f = q + _sum(totals * zbar, axis=1) + hc - ohc
     fx = _LN10 * (_sum(totals * var_j, axis=1) + hc + ohc)
     fi = _sum(totals * dd_s * cov, axis=1) + dh * hc - doh * ohc

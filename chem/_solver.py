@@ -27,13 +27,13 @@ from __future__ import annotations
 
 import functools
 import math
-from dataclasses import dataclass, replace
+from dataclasses import dataclass
 
 import numpy as np
 
 from . import water
 from .activity import VALID_UP_TO, log_gamma
-from .cautions import cautions_for
+from .cautions import cautions_of
 from .model import (T_REF_C, AcidBaseSystem, Equilibrium, Ion, Mixture, Notice, Species,
                     charge_label)
 
@@ -91,6 +91,8 @@ class _Layout:
                 self.dh[i, :n] = np.asarray(sys_.dh_kj) * 1000.0
                 if sys_.dcp_j is not None:
                     self.dcp[i, :n] = sys_.dcp_j
+        for arr in (self.mask, self.z, self.j, self.size, self.pka0, self.dh, self.dcp):
+            arr.setflags(write=False)          # layouts are cached and shared
 
     def log_beta(self, t_c) -> np.ndarray:
         """log10 β of each padded species at temperatures ``t_c`` (shape (P,)).
@@ -110,6 +112,12 @@ class _Layout:
             lb[..., : m - 1] = rev[..., : m - 1]
         lb[:, ~self.mask] = -np.inf
         return lb
+
+
+@functools.lru_cache(maxsize=256)
+def layout_for(systems: tuple[AcidBaseSystem, ...]) -> _Layout:
+    """The padded layout of ``systems`` (cached: building it costs ~0.2 ms; layouts are never changed)."""
+    return _Layout(systems)
 
 
 def tableau(mixture: Mixture) -> Tableau:
@@ -388,7 +396,7 @@ def prepare(mixture: Mixture):
     """Layout and totals of a mixture (shared by solve, sweeps and curves)."""
     pairs = mixture.systems()
     systems = tuple(s for s, _ in pairs)
-    lay = _Layout(systems)
+    lay = layout_for(systems)
     totals = np.array([c for _, c in pairs], dtype=float)
     strong = mixture.strong_ions()
     return lay, totals, strong
@@ -467,12 +475,12 @@ def _assemble(mixture: Mixture, pairs, strong, x: float, ionic: float, alphas, l
     message = ("converged" if converged else
                f"not converged after {iterations} iterations (relative balance error {rel:.1e})")
     warnings = _warnings(mixture, [s for s, _ in pairs], ionic, converged, message)
-    eq = Equilibrium(mixture=mixture, pH=ph, pOH=pkw - ph, pKw=pkw, ionic_strength=ionic,
-                     converged=converged, balance_error=resid, iterations=iterations,
-                     message=message, species=tuple(species),
-                     systems=tuple((s.name, float(c)) for s, c in pairs),
-                     warnings=tuple(warnings))
-    return replace(eq, cautions=tuple(cautions_for(eq)))
+    species_t = tuple(species)
+    return Equilibrium(mixture=mixture, pH=ph, pOH=pkw - ph, pKw=pkw, ionic_strength=ionic,
+                       converged=converged, balance_error=resid, iterations=iterations,
+                       message=message, species=species_t,
+                       systems=tuple((s.name, float(c)) for s, c in pairs),
+                       warnings=tuple(warnings), cautions=tuple(cautions_of(mixture, ph, species_t)))
 
 
 def equilibrium_at(mixture: Mixture, batch: "_Batch", idx: int) -> Equilibrium:

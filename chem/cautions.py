@@ -6,7 +6,7 @@ The tool informs; it does not certify. Every caution ends with
 
 from __future__ import annotations
 
-from .model import Equilibrium, Notice
+from .model import Equilibrium, Mixture, Notice
 
 DEFER = ("Model estimate only: follow the safety data sheets, local codes and "
          "licensed practice.")
@@ -22,12 +22,16 @@ TRACE_M = 1e-6
 
 def cautions_for(eq: Equilibrium) -> list[Notice]:
     """The cautions that apply to ``eq`` (possibly none)."""
+    return cautions_of(eq.mixture, eq.pH, eq.species)
+
+
+def cautions_of(mixture: Mixture, ph: float, species) -> list[Notice]:
+    """The cautions for ``mixture`` at ``ph`` with its solved ``species``."""
     out: list[Notice] = []
-    pairs = eq.mixture.systems()
+    pairs = mixture.systems()
     present = {s.name: (s, c) for s, c in pairs if c > TRACE_M}
     hazards = {s.hazard for s, _ in present.values() if s.hazard}
-    ph = eq.pH
-    t = eq.temperature_c
+    t = mixture.temperature_c
 
     for name, (sys_, total) in present.items():
         if sys_.hazard == "chlorine" and ph < 6.0:
@@ -39,7 +43,7 @@ def cautions_for(eq: Equilibrium) -> list[Notice]:
             pka = float(sys_.pka_at(t)[0])
             if ph < pka:
                 gas = sys_.species[0]
-                share = next((s.fraction for s in eq.species_of(name) if s.name == gas), None)
+                share = next((s.fraction for s in species if s.system == name and s.name == gas), None)
                 pct = f" ({share:.0%} as {gas})" if share is not None else ""
                 out.append(Notice(
                     "toxic-gas",

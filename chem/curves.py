@@ -25,7 +25,7 @@ from typing import Callable, Sequence
 import numpy as np
 
 from ._batch import evaluate_at, solve_batch
-from ._solver import _Layout, _strong_sums, solve
+from ._solver import _strong_sums, layout_for, solve
 from .diagrams import default_grid
 from .errors import ChemError
 from .library import Library, load_library, normalise
@@ -197,7 +197,7 @@ class _Family:
         self.model = layout_mixture.activity
         self.t_c = layout_mixture.temperature_c
         systems = tuple(s for s, _ in layout_mixture.systems())
-        self.lay = _Layout(systems)
+        self.lay = layout_for(systems)
         names = [s.name for s in systems]
         k = len(parts)
         self.tot = np.zeros((k, len(names)))

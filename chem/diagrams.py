@@ -12,7 +12,8 @@ from dataclasses import dataclass
 import numpy as np
 
 from . import water
-from ._solver import SIZE_H, SIZE_OH, _Layout
+from ._solver import SIZE_H, SIZE_OH, layout_for
+from .water import LN10
 from .activity import log_gamma
 from .model import AcidBaseSystem, Mixture
 
@@ -47,14 +48,14 @@ def _fractions_all(systems: tuple[AcidBaseSystem, ...], ph: np.ndarray, t_c: flo
 
     One padded computation for all systems (padding gives fraction 0).
     """
-    lay = _Layout(systems)
+    lay = layout_for(systems)
     a = float(water.debye_huckel_a(t_c))
     b = float(water.debye_huckel_b(t_c))
     lg = log_gamma(model, lay.z * lay.z, lay.size, ionic, a, b)
     base = lay.log_beta(t_c)[0] - lg                        # (S, M)
     w = base[None, :, :] - lay.j[None, :, :] * ph[:, None, None]
     w -= w.max(axis=2, keepdims=True)
-    e = np.power(10.0, w)
+    e = np.exp(w * LN10)
     e /= e.sum(axis=2, keepdims=True)
     return e
 

@@ -9,6 +9,7 @@ from __future__ import annotations
 import math
 import re
 from dataclasses import dataclass, replace
+from typing import NamedTuple
 
 import numpy as np
 
@@ -313,8 +314,9 @@ class Notice:
     message: str
 
 
-@dataclass(frozen=True, slots=True)
-class Species:
+class Species(NamedTuple):
+    """One species of a solved mixture (immutable)."""
+
     name: str
     system: str
     """Acid–base system, or "water" (H+, OH-) or "strong" (Na+, Cl-, ...)."""
