@@ -13,7 +13,7 @@ import gc
 import sys
 from dataclasses import dataclass, replace
 from pathlib import Path
-from typing import Iterable
+from typing import TYPE_CHECKING, Iterable
 
 from rich.style import Style
 
@@ -31,16 +31,25 @@ from textual.worker import Worker, WorkerState, get_current_worker
 import chem
 from chem.activity import MODELS
 from tui import storage
-from tui.messages import Plotted, Solved
+from tui.messages import CapacityFound, Plotted, Solved
 from tui.widgets.flask_list import FlaskList
 from tui.widgets.notice_bar import NoticeBar
 from tui.widgets.plot_area import PlotArea, prepare
-from tui.widgets.curve_kinds import (CURVE_KIND_IDS, SweepSettings, TitrationSettings, curve_kinds, default_sweep,
-                                     default_titration, draw_kind)
-from tui.widgets.plot_kinds import PLOT_KINDS, PlotKind, PlotRequest, PlotStyle, locale_is_utf8
+from tui.widgets.plot_kinds import PLOT_KINDS, PlotKind, PlotRequest, PlotStyle, draw_kind, locale_is_utf8
 from tui.widgets.readout import Readout
 from tui.widgets.species_table import SpeciesTable
 from tui.widgets.title_bar import TitleBar
+
+if TYPE_CHECKING:
+    from tui.widgets.curve_kinds import SweepSettings, TitrationSettings
+
+
+def _curves():
+    """The curve plot kinds module, imported on first use (the first frame does not need it)."""
+    from tui.widgets import curve_kinds
+
+    return curve_kinds
+
 
 #: Amount nudges: a coarse and a fine factor per key press.
 NUDGE_FACTORS = (1.25, 1.05)
@@ -244,9 +253,12 @@ class ExplorerApp(App[int]):
     @property
     def kinds(self) -> tuple[PlotKind, ...]:
         """Every plot the chart can show, the curve kinds with their current settings."""
-        return PLOT_KINDS + curve_kinds(self._titration, self._sweep)
+        return PLOT_KINDS + _curves().curve_kinds(self._titration, self._sweep)
 
     def _kind(self) -> PlotKind:
+        for kind in PLOT_KINDS:                         # the common case, without loading the curves
+            if kind.id == self.plot_kind:
+                return kind
         return next(k for k in self.kinds if k.id == self.plot_kind)
 
     def _plot_request(self) -> PlotRequest | None:
@@ -262,7 +274,7 @@ class ExplorerApp(App[int]):
 
     @staticmethod
     def _plot_title(kind: PlotKind, request: PlotRequest) -> str:
-        if kind.id in CURVE_KIND_IDS:                   # curves are about the whole mixture
+        if kind not in PLOT_KINDS:                      # curves are about the whole mixture
             return kind.title
         return f"{kind.title} · {request.system or 'all systems'}"
 
@@ -281,10 +293,13 @@ class ExplorerApp(App[int]):
         worker = get_current_worker()
         if known is None:
             result = chem.solve(mixture)
+            if worker.is_cancelled:
+                return
+            self.post_message(Solved(generation, result))           # the pH first
             capacity = chem.buffer_capacity_at(result) if result.converged else None
             if worker.is_cancelled:
                 return
-            self.post_message(Solved(generation, result, capacity))
+            self.post_message(CapacityFound(generation, capacity))
         else:
             result = known
         if request is None:
@@ -296,9 +311,13 @@ class ExplorerApp(App[int]):
     @on(Solved)
     def _show_result(self, message: Solved) -> None:
         if message.generation == self._generation:
-            self.capacity = message.capacity
             self.result = message.result
             self._update_keys()
+
+    @on(CapacityFound)
+    def _show_capacity(self, message: CapacityFound) -> None:
+        if message.generation == self._generation:
+            self.capacity = message.capacity
 
     @on(Plotted)
     def _show_plot(self, message: Plotted) -> None:
@@ -493,7 +512,8 @@ class ExplorerApp(App[int]):
                     self._sweep = settings
                     self._recompute()
 
-            self.push_screen(SweepSetup(self.mixture, self._sweep or default_sweep(self.mixture)), use_sweep)
+            self.push_screen(SweepSetup(self.mixture, self._sweep or _curves().default_sweep(self.mixture)),
+                             use_sweep)
             return
 
         def use_titration(settings: TitrationSettings | None) -> None:
@@ -504,7 +524,7 @@ class ExplorerApp(App[int]):
                 else:
                     self.plot_kind = "titration"            # its watcher recomputes
 
-        current = self._titration or (default_titration(self.result) if self.result else None)
+        current = self._titration or (_curves().default_titration(self.result) if self.result else None)
         self.push_screen(TitrationSetup(self.mixture, current, self.library), use_titration)
 
     def action_recipe(self) -> None:

@@ -21,8 +21,15 @@ class Solved(Message):
 
     generation: int
     result: chem.Equilibrium
-    capacity: float | None = None
-    """Buffer capacity β at the solved pH, mol/(L·pH) (None when the solve did not converge)."""
+
+
+@dataclass
+class CapacityFound(Message):
+    """The buffer capacity of request ``generation``'s solved mixture, computed after its pH was shown."""
+
+    generation: int
+    capacity: float | None
+    """β at the solved pH, mol/(L·pH); None when the solve did not converge."""
 
 
 @dataclass

@@ -9,10 +9,15 @@ import chem
 from rich.style import Style
 from tui import storage
 from tui.widgets.plot_area import prepare
-from tui.widgets.plot_kinds import (PLAIN_MARKERS, PLOT_KINDS, PlotRequest, PlotStyle, build_plot, grid_points,
-                                    locale_is_utf8, simplify, visible_runs)
+from tui.widgets.plot_kinds import (PLAIN_MARKERS, PLOT_KINDS, PlotRequest, PlotStyle, draw_kind, grid_points,
+                                    locale_is_utf8, plot_kind, simplify, visible_runs)
 
 BRAILLE = range(0x2800, 0x2900)
+
+
+def build_plot(result, request):
+    """The drawing of the built-in plot kind named in ``request``."""
+    return draw_kind(plot_kind(request.kind), result, request)
 
 
 @pytest.fixture(scope="module")

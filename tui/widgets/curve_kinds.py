@@ -11,62 +11,14 @@ API:
     ``titration_kind(settings=None)``, ``capacity_kind()``, ``sweep_kind(settings=None)``,
     ``dilution_kind()`` -> :class:`PlotKind` (ids "titration", "capacity", "sweep", "dilution").
     ``curve_kinds(titration=None, sweep=None)`` -> those four, in chart order.
-    ``draw_kind(kind, result, request)`` -> :class:`Drawing` for any kind (size guard included).
+    ``draw_kind`` (from :mod:`plot_kinds`, re-exported) -> :class:`Drawing` for any kind.
     ``TitrationSettings`` / ``SweepSettings``: what the setup forms return (text as typed);
     ``default_titration(result)`` / ``default_sweep(mixture)``: the settings used when none are set.
     ``read_number(text, what)`` / ``read_celsius(text, what)``: plain numbers typed in forms.
     A ``None`` setting means "the default for the mixture on display", decided at build time.
 
-Wiring into ``tui/app.py`` (the setup screens are ``tui.screens.titration_setup.TitrationSetup``
-and ``tui.screens.sweep_setup.SweepSetup``)::
-
-    from tui.widgets.curve_kinds import (CURVE_KIND_IDS, SweepSettings, TitrationSettings, curve_kinds,
-                                         default_sweep, default_titration, draw_kind)
-
-    # ExplorerApp.__init__:
-    self._titration: TitrationSettings | None = None     # None: default_titration(result)
-    self._sweep: SweepSettings | None = None             # None: default_sweep(mixture)
-
-    @property
-    def kinds(self) -> tuple[PlotKind, ...]:
-        return PLOT_KINDS + curve_kinds(self._titration, self._sweep)
-
-    def _kind(self) -> PlotKind:
-        return next(k for k in self.kinds if k.id == self.plot_kind)
-
-    # _recompute: pass self._kind() to _compute; in _compute replace
-    #   build_plot(result, request)            ->  draw_kind(kind, result, request)
-    # _plot_title: use kind.title, and add " · system" only when kind.id not in CURVE_KIND_IDS
-    #   (the curve kinds ignore request.system: they are about the whole mixture).
-    # action_next_plot: cycle through [k.id for k in self.kinds] instead of PLOT_KINDS.
-
-    # COMMANDS: new entry (the "g" help becomes "Switch the plot (fractions, log C, titration,
-    # buffer capacity, sweep, dilution)"):
-    Command("v", "curve_setup", "Curve", "Set up the titration or sweep shown in the chart", True),
-
-    def action_curve_setup(self) -> None:
-        from tui.screens.sweep_setup import SweepSetup
-        from tui.screens.titration_setup import TitrationSetup
-
-        if self.plot_kind == "sweep":
-            def use_sweep(settings: SweepSettings | None) -> None:
-                if settings is not None:
-                    self._sweep = settings
-                    self._recompute()
-            self.push_screen(SweepSetup(self.mixture, self._sweep or default_sweep(self.mixture)), use_sweep)
-            return
-
-        def use_titration(settings: TitrationSettings | None) -> None:
-            if settings is not None:
-                self._titration = settings
-                if self.plot_kind == "titration":
-                    self._recompute()
-                else:
-                    self.plot_kind = "titration"            # its watcher recomputes
-        current = self._titration or (default_titration(self.result) if self.result else None)
-        self.push_screen(TitrationSetup(self.mixture, current, self.library), use_titration)
-
-    # check_action: "curve_setup" needs a result (return self.result is not None or None), like "pin".
+The explorer (``tui/app.py``) lists these after :data:`PLOT_KINDS`, imports this module on first
+use (it is not needed for the first frame), and opens the setup screens with ``v``.
 
 A setting that no longer fits the mixture (a swept ingredient removed, say) is not an error of
 the app: the kind draws chem's one-line message in place of the plot, and ``v`` fixes it.
@@ -86,7 +38,7 @@ from textual.worker import NoActiveWorker, get_current_worker
 import chem
 from chem import curves
 from tui.widgets.plot_kinds import (_BOX_TO_ASCII, MIN_HEIGHT, MIN_WIDTH, RGB, Drawing, LegendLine, PlotKind,
-                                    PlotRequest, draw, grid_points, simplify)
+                                    PlotRequest, draw, draw_kind, grid_points, simplify)
 
 #: The ids of the kinds made here, in the order the chart cycles through them.
 CURVE_KIND_IDS = ("titration", "capacity", "sweep", "dilution")
@@ -583,12 +535,3 @@ def curve_kinds(titration: TitrationSettings | None = None,
     """The four curve kinds with these settings, in the order the chart cycles through them."""
     return titration_kind(titration), capacity_kind(), sweep_kind(sweep), dilution_kind()
 
-
-def draw_kind(kind: PlotKind, result: chem.Equilibrium, request: PlotRequest) -> Drawing:
-    """``kind``'s plot for ``request``, or a short note when the area is too small to draw in.
-
-    Works for every :class:`PlotKind` (those of :data:`PLOT_KINDS` too); runs in a worker thread.
-    """
-    if request.width < MIN_WIDTH or request.height < MIN_HEIGHT:
-        return Drawing(f"Enlarge the window to see the plot (needs {MIN_WIDTH}x{MIN_HEIGHT} cells).", note=True)
-    return kind.build(result, request)

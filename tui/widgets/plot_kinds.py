@@ -306,8 +306,11 @@ def plot_kind(kind_id: str) -> PlotKind:
     raise KeyError(kind_id)
 
 
-def build_plot(result: chem.Equilibrium, request: PlotRequest) -> Drawing:
-    """The plot for ``request``, or a short note when the area is too small to draw in."""
+def draw_kind(kind: PlotKind, result: chem.Equilibrium, request: PlotRequest) -> Drawing:
+    """``kind``'s plot for ``request``, or a short note when the area is too small to draw in.
+
+    Works for every :class:`PlotKind` (the curve kinds too); runs in a worker thread.
+    """
     if request.width < MIN_WIDTH or request.height < MIN_HEIGHT:
         return Drawing(f"Enlarge the window to see the plot (needs {MIN_WIDTH}x{MIN_HEIGHT} cells).", note=True)
-    return plot_kind(request.kind).build(result, request)
+    return kind.build(result, request)
