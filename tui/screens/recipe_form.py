@@ -16,40 +16,8 @@ API:
     ``Cycler``: a one-line choice among a few values (←/→ or space), also used by the sweep form;
     ``show_text(label, text)``, ``named(field, error)``, ``first_problem(...)``: shared with the setup forms.
 
-Wiring into ``tui/app.py``::
-
-    # COMMANDS: new entry (footer: yes)
-    Command("b", "recipe", "Recipe", "Design a buffer recipe and load it into the flask", True),
-
-    def action_recipe(self) -> None:
-        from tui.screens.recipe_form import RecipeForm
-
-        def done(answer) -> None:          # chem.Recipe | tuple[str, chem.Recipe] | None
-            if answer is None:
-                return
-            if isinstance(answer, tuple):  # ("save", recipe): name it, confirm, write atomically
-                self._save_recipe(answer[1])
-                return
-            self._source = "buffer recipe"
-            self.commit(answer.mixture, f"load the {answer.system.name} recipe")   # undoable
-            self.query_one(FlaskList).select(0)
-
-        pH = round(self.result.pH, 2) if self.result is not None else None
-        self.push_screen(RecipeForm(self.library, target_pH=pH, temperature_c=self.mixture.temperature_c,
-                                    activity=self.mixture.activity), done)
-
-    def _save_recipe(self, recipe) -> None:
-        from tui.screens.save_preset import SavePreset, SaveRequest
-
-        def save(request: SaveRequest | None) -> None:
-            if request is not None:
-                self._save(replace(recipe.mixture, title=request.title), request.name, request.overwrite, False)
-
-        self.push_screen(SavePreset("", recipe.mixture.title), save)
-
-    # _saved() then must mark the flask clean only when the saved mixture is the flask's:
-    #     if mixture == self.mixture: self._clean = mixture; self._preset_name = name; ... (title bar)
-    # (the recipe is saved without being loaded; loading it is the other button).
+The explorer opens it with ``b`` (``ExplorerApp.action_recipe``): a returned recipe replaces the
+flask's mixture as one undoable edit; ``("save", recipe)`` goes through the app's save dialog.
 """
 
 from __future__ import annotations

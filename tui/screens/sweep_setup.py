@@ -34,22 +34,8 @@ class SweepSetup(ModalScreen["SweepSettings | None"]):
     """Asks what varies and over which range; dismisses with the :class:`SweepSettings`."""
 
     DEFAULT_CSS = """
-    .setup-row {
-        height: 1;
-        margin-top: 1;
-    }
-    .setup-row .field-label {
+    SweepSetup .setup-row .field-label {
         width: 16;
-    }
-    .setup-row Input {
-        width: 1fr;
-        background: $boost;
-    }
-    .setup-row Input:focus {
-        background: $primary 20%;
-    }
-    .setup-row Input.-invalid {
-        background: $error 25%;
     }
     #sweep-error {
         height: auto;

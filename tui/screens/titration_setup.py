@@ -37,22 +37,8 @@ class TitrationSetup(ModalScreen["TitrationSettings | None"]):
     """Asks for the titrant, its stock concentration, the sample volume and the last volume added."""
 
     DEFAULT_CSS = """
-    .setup-row {
-        height: 1;
-        margin-top: 1;
-    }
-    .setup-row .field-label {
+    TitrationSetup .setup-row .field-label {
         width: 24;
-    }
-    .setup-row Input {
-        width: 1fr;
-        background: $boost;
-    }
-    .setup-row Input:focus {
-        background: $primary 20%;
-    }
-    .setup-row Input.-invalid {
-        background: $error 25%;
     }
     #titrant-matches {
         height: auto;
