@@ -293,13 +293,17 @@ class ExplorerApp(App[int]):
         worker = get_current_worker()
         if known is None:
             result = chem.solve(mixture)
+            # β costs ~1 ms once chem.curves is loaded; the first time, show the pH before loading it.
+            warm = "chem.curves" in sys.modules
+            capacity = chem.buffer_capacity_at(result) if warm and result.converged else None
             if worker.is_cancelled:
                 return
-            self.post_message(Solved(generation, result))           # the pH first
-            capacity = chem.buffer_capacity_at(result) if result.converged else None
-            if worker.is_cancelled:
-                return
-            self.post_message(CapacityFound(generation, capacity))
+            self.post_message(Solved(generation, result, capacity))
+            if not warm:
+                capacity = chem.buffer_capacity_at(result) if result.converged else None
+                if worker.is_cancelled:
+                    return
+                self.post_message(CapacityFound(generation, capacity))
         else:
             result = known
         if request is None:
@@ -311,6 +315,8 @@ class ExplorerApp(App[int]):
     @on(Solved)
     def _show_result(self, message: Solved) -> None:
         if message.generation == self._generation:
+            if message.capacity is not None or not message.result.converged:
+                self.capacity = message.capacity
             self.result = message.result
             self._update_keys()
 

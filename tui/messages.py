@@ -21,6 +21,8 @@ class Solved(Message):
 
     generation: int
     result: chem.Equilibrium
+    capacity: float | None = None
+    """β at the solved pH, mol/(L·pH), when it was ready in time (else a :class:`CapacityFound` follows)."""
 
 
 @dataclass
