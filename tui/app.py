@@ -183,7 +183,11 @@ class ExplorerApp(App[int]):
         self.query_one("#readout").border_title = "Readout"
         self.query_one("#species").border_title = "Species"
         self.theme_changed_signal.subscribe(self, lambda _theme: self._recompute())
+        # The first solve takes about a millisecond: do it here, so the very first frame shows the pH
+        # (the worker then only draws the plot).
+        self.result = chem.solve(self._start)
         self.mixture = self._start
+        self._capacity_of(self._generation, self.result)
         self.query_one(FlaskList).focus()
         self._offer_restore()
         # The key bar takes ~70 ms to build: add it after the first frame, so the pH shows sooner.
@@ -311,6 +315,11 @@ class ExplorerApp(App[int]):
         image = prepare(draw_kind(kind, result, request), request.width, base)
         if not worker.is_cancelled:
             self.post_message(Plotted(generation, image, self._plot_title(kind, request)))
+
+    @work(thread=True, group="capacity", exit_on_error=False, description="buffer capacity")
+    def _capacity_of(self, generation: int, result: chem.Equilibrium) -> None:
+        """β of a result solved on the UI thread (the first one); loads chem.curves off the UI thread."""
+        self.post_message(CapacityFound(generation, chem.buffer_capacity_at(result) if result.converged else None))
 
     @on(Solved)
     def _show_result(self, message: Solved) -> None:

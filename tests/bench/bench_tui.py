@@ -68,14 +68,16 @@ def summary(values_ms: list[float]) -> str:
 CHILD = r"""
 import sys, time
 from tui.app import ExplorerApp
-from tui.messages import Solved
 import chem
 
 class Probe(ExplorerApp):
-    def on_solved(self, message):
+    def on_mount(self):                      # runs after ExplorerApp's own on_mount
         self.call_after_refresh(self._frame)
 
-    def _frame(self):
+    def _frame(self):                        # after a frame: did it show a pH?
+        if self.result is None:
+            self.call_after_refresh(self._frame)
+            return
         print(time.time(), flush=True)
         self.exit(0)
 
