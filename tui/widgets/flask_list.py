@@ -155,7 +155,9 @@ class FlaskList(VerticalScroll, can_focus=True):
                 row.remove()
             self._rows = [_FlaskRow(ing) for ing in ingredients]
             self.mount_all(self._rows)
-        self.query_one("#flask-empty").display = not ingredients
+        empty = self.query_one("#flask-empty")
+        if empty.display != (not ingredients):          # setting a style, even unchanged, re-renders the list
+            empty.display = not ingredients
         self._fit_amounts(ingredients)
         self.cursor = max(0, min(self.cursor, len(ingredients) - 1))
         self.call_after_refresh(self._mark_cursor)
