@@ -75,7 +75,8 @@ class Library:
     def parent_reagent(self, system: AcidBaseSystem) -> Reagent | None:
         """The compound a system is named after, when the library has it (Tris -> "tris base")."""
         for r in self.reagents_of(system):
-            if not r.counter_ions and r.units == 1 and normalise(r.name).startswith(normalise(system.name)):
+            only_protons = all(ion.name == "H+" for ion, _ in r.counter_ions)   # e.g. a free acid
+            if only_protons and r.units == 1 and normalise(r.name).startswith(normalise(system.name)):
                 return r
         return None
 
