@@ -32,7 +32,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from . import water
-from .activity import VALID_UP_TO, log_gamma
+from .activity import VALID_UP_TO
 from .cautions import cautions_of
 from .model import (T_REF_C, AcidBaseSystem, Equilibrium, Ion, Mixture, Notice, Species,
                     charge_label)
@@ -44,7 +44,6 @@ SIZE_OH = 3.5
 
 _LN10 = math.log(10.0)
 _sum = np.add.reduce
-_max = np.maximum.reduce
 _X_LO, _X_HI = -19.0, 4.0   # initial bracket on log10 a(H+)
 
 
@@ -483,8 +482,8 @@ def _assemble(mixture: Mixture, pairs, strong, x: float, ionic: float, alphas, l
                        warnings=tuple(warnings), cautions=tuple(cautions_of(mixture, ph, species_t)))
 
 
-def equilibrium_at(mixture: Mixture, batch: "_Batch", idx: int) -> Equilibrium:
-    """The :class:`Equilibrium` of point ``idx`` of a batch solve of ``mixture``'s layout."""
+def equilibrium_at(mixture: Mixture, batch, idx: int) -> Equilibrium:
+    """The :class:`Equilibrium` of point ``idx`` of a batch solve (:mod:`chem._batch`) of ``mixture``."""
     t = mixture.temperature_c
     pkw, a, b = _water_constants(t)
     pairs = mixture.systems()

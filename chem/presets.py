@@ -8,6 +8,7 @@ existing file unless asked to.
 
 from __future__ import annotations
 
+import json
 import math
 import os
 import tempfile
@@ -236,16 +237,19 @@ def dumps_preset(mixture: Mixture) -> str:
     doc["activity"] = mixture.activity
     if mixture.notes:
         doc["notes"] = mixture.notes
-    doc["ingredient"] = [{"name": i.reagent.name, "conc": i.text if i.text else i.conc}
-                         for i in mixture.ingredients]
-    customs, seen = [], set()
+    parts = [tomli_w.dumps(doc)]
+    for ing in mixture.ingredients:              # [[ingredient]] tables, as people write them
+        parts.append("\n[[ingredient]]\n" + tomli_w.dumps({"name": ing.reagent.name,
+                                                           "conc": ing.text if ing.text else ing.conc}))
+    seen: set[str] = set()
     for ing in mixture.ingredients:
         if ing.reagent.custom and ing.reagent.name not in seen:
             seen.add(ing.reagent.name)
-            customs.append(_custom_table(ing.reagent))
-    if customs:
-        doc["custom"] = customs
-    return tomli_w.dumps(doc)
+            table = _custom_table(ing.reagent)
+            ions = table.pop("counter_ions")
+            inline = ", ".join(f"{json.dumps(name)} = {n}" for name, n in ions.items())
+            parts.append("\n[[custom]]\n" + tomli_w.dumps(table) + f"counter_ions = {{ {inline} }}\n")
+    return "".join(parts)
 
 
 def write_atomic(path, text: str, *, overwrite: bool = False) -> Path:

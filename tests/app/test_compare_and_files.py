@@ -149,18 +149,11 @@ async def test_quit_with_unsaved_changes_asks_and_escape_stays(acetate_buffer):
     assert storage.read_autosave() is None              # a clean quit leaves nothing to restore
 
 
-async def test_quit_without_changes_leaves_at_once(acetate_buffer):
+@pytest.mark.parametrize("key", ["q", "ctrl+q"])
+async def test_quit_without_changes_leaves_at_once(acetate_buffer, key):
     app = ExplorerApp(acetate_buffer)
     async with app.run_test(size=(80, 24)) as pilot:
-        await pilot.press("q")
-        await pilot.pause()
-    assert app.return_value == 0
-
-
-async def test_ctrl_q_quits_too(acetate_buffer):
-    app = ExplorerApp(acetate_buffer)
-    async with app.run_test(size=(80, 24)) as pilot:
-        await pilot.press("ctrl+q")
+        await pilot.press(key)
         await pilot.pause()
     assert app.return_value == 0
 

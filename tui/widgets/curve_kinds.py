@@ -37,8 +37,9 @@ from textual.worker import NoActiveWorker, get_current_worker
 
 import chem
 from chem import curves
-from tui.widgets.plot_kinds import (_BOX_TO_ASCII, MIN_HEIGHT, MIN_WIDTH, RGB, Drawing, LegendLine, PlotKind,
-                                    PlotRequest, draw, draw_kind, grid_points, simplify)
+from tui.widgets.plot_kinds import (_BOX_TO_ASCII, RGB, Drawing, LegendLine, PlotKind, PlotRequest, draw,
+                                    grid_points, simplify)
+from tui.widgets.plot_kinds import draw_kind  # noqa: F401  (re-exported: one entry point for every kind)
 
 #: The ids of the kinds made here, in the order the chart cycles through them.
 CURVE_KIND_IDS = ("titration", "capacity", "sweep", "dilution")
