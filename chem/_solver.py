@@ -143,17 +143,10 @@ def tableau(mixture: Mixture) -> Tableau:
 # which for tens of species beats numpy's per-call overhead several times.
 # --------------------------------------------------------------------------
 
-def _solve_scalar(systems: list, q_strong: float, i_strong: float, kw: float, a: float, b: float,
-                  model: str, *, tol: float, max_iter: int, x0: float = -7.0):
-    """Solve one mixture.
+def _kernel(systems: list, q_strong: float, i_strong: float, kw: float, a: float, b: float, model: str):
+    """The balance equations of one mixture as closures over its data (see :func:`_solve_scalar`).
 
-    ``systems`` lists ``(total, c, ln_beta, j, z2, size, z)`` per acid–base
-    system: total (mol/L), the charge ``c`` of the fully deprotonated form, per
-    species the natural-log formation constant, bound protons and squared
-    charge, the system's ion size (Å), and per species the charge.  Returns
-    ``(x, ionic, alphas, lgs, lg_h, lg_oh, residual, scale, converged, iterations)``
-    with x = log10 a(H+), ``alphas`` the fractions and ``lgs`` the log10 γ of
-    each system's species.
+    Returns ``(dfactor, bases, water_gammas, evaluate, joint)``.
     """
     ideal = model == "ideal"
     davies = model == "davies"
@@ -271,6 +264,27 @@ def _solve_scalar(systems: list, q_strong: float, i_strong: float, kw: float, a:
         gi = 0.5 * (gi + dh_ * hc + doh * ohc) - 1.0
         return f, g, fx, fi, gx, gi
 
+    return dfactor, bases, water_gammas, evaluate, joint
+
+
+def _solve_scalar(systems: list, q_strong: float, i_strong: float, kw: float, a: float, b: float,
+                  model: str, *, tol: float, max_iter: int, x0: float = -7.0):
+    """Solve one mixture.
+
+    ``systems`` lists ``(total, c, ln_beta, j, z2, size, z)`` per acid–base
+    system: total (mol/L), the charge ``c`` of the fully deprotonated form, per
+    species the natural-log formation constant, bound protons and squared
+    charge, the system's ion size (Å), and per species the charge.  Returns
+    ``(x, ionic, alphas, lgs, lg_h, lg_oh, residual, scale, converged, iterations)``
+    with x = log10 a(H+), ``alphas`` the fractions and ``lgs`` the log10 γ of
+    each system's species.
+    """
+    ideal = model == "ideal"
+    dfactor, bases, water_gammas, evaluate, joint = _kernel(systems, q_strong, i_strong, kw, a, b, model)
+    ln10 = _LN10
+    sqrt = math.sqrt
+    exp = math.exp
+
     x = min(max(x0, _X_LO), _X_HI)
     ionic = i_strong
     # No ionic strength can exceed this (every ion at its largest charge, plus
@@ -370,6 +384,23 @@ def _solve_scalar(systems: list, q_strong: float, i_strong: float, kw: float, a:
     return (x, ionic, alphas, lgs, lg_h, lg_oh, f, scale, converged, iterations)
 
 
+def _capacity_scalar(systems: list, q_strong: float, i_strong: float, kw: float, a: float, b: float,
+                     model: str, x: float, ionic: float) -> float:
+    """β = dC_b/dpH at the solved state (x = log10 a(H+), I) of one mixture.
+
+    Strong monovalent base C_b raises the charge balance F by C_b and the
+    ionic strength by C_b/2; the implicit-function theorem on F = 0 and
+    G = I_computed - I = 0 gives dx/dC_b, and β = -1/(dx/dC_b) (pH = -x).
+    Exact for the model, activity corrections included.
+    """
+    _, bases, water_gammas, _, joint = _kernel(systems, q_strong, i_strong, kw, a, b, model)
+    g_h, g_oh = water_gammas(ionic)
+    _, _, fx, fi, gx, gi = joint(x, ionic, bases(ionic), g_h, g_oh)
+    if model == "ideal":          # γ = 1: the ionic strength changes nothing
+        return fx
+    return (fx * gi - fi * gx) / (gi - 0.5 * fi)
+
+
 def _bracket_end(evaluate, prepared, g_h, g_oh, direction):
     """A point beyond which the balance has the sign that brackets the root."""
     end = _X_LO if direction < 0 else _X_HI
@@ -448,6 +479,17 @@ def solve(mixture: Mixture, *, tol: float = 1e-13, max_iter: int = 200) -> Equil
         sys_data, q, i_s, 10.0 ** -pkw, a, b, mixture.activity, tol=tol, max_iter=max_iter)
     return _assemble(mixture, pairs, strong, x, ionic, alphas, lgs, lg_h, lg_oh, resid, scale,
                      converged, iterations, pkw, a, b)
+
+
+def buffer_capacity(result: Equilibrium) -> float:
+    """Buffer capacity β (mol/(L·pH)) of a solved mixture at its pH; see :func:`_capacity_scalar`."""
+    mixture = result.mixture
+    t = mixture.temperature_c
+    q, i_s = _strong_sums(mixture.strong_ions())
+    pkw, a, b = _water_constants(t)
+    sys_data = [(total, *_scalar_system(sys_, t)) for sys_, total in mixture.systems()]
+    return _capacity_scalar(sys_data, q, i_s, 10.0 ** -pkw, a, b, mixture.activity,
+                            -result.pH, result.ionic_strength)
 
 
 def _assemble(mixture: Mixture, pairs, strong, x: float, ionic: float, alphas, lgs, lg_h: float,

@@ -25,6 +25,7 @@ from typing import Callable, Sequence
 import numpy as np
 
 from ._batch import evaluate_at, solve_batch
+from . import _solver
 from ._solver import _strong_sums, layout_for, solve
 from .diagrams import default_grid
 from .errors import ChemError
@@ -589,13 +590,11 @@ def buffer_capacity_at(source: Equilibrium | Mixture) -> float:
     source : Equilibrium or Mixture
         A solved mixture, or a mixture to solve.
     """
-    mixture = source.mixture if isinstance(source, Equilibrium) else source
-    if not isinstance(mixture, Mixture):
+    if isinstance(source, Mixture):
+        source = solve(source)
+    if not isinstance(source, Equilibrium):
         raise CurveError(f"buffer capacity needs a mixture or an equilibrium (got {source!r})")
-    fam = _Family(mixture, [mixture.ingredients])
-    b = fam.batch(np.ones((1, 1)))
-    dx_dcb = b.sensitivity(np.zeros((1, fam.tot.shape[1])), np.ones(1), np.full(1, 0.5))
-    return float(-1.0 / dx_dcb[0])
+    return float(_solver.buffer_capacity(source))
 
 
 # --------------------------------------------------------------------------

@@ -11,6 +11,7 @@ from __future__ import annotations
 
 import gc
 import sys
+import time
 from dataclasses import dataclass, replace
 from pathlib import Path
 from typing import TYPE_CHECKING, Iterable
@@ -57,6 +58,9 @@ NUDGE_FACTORS = (1.25, 1.05)
 TEMPERATURE_STEP = 1.0
 #: Undo steps kept.
 HISTORY_LIMIT = 500
+
+SLOW_PLOT_S = 0.025
+"""A plot that took longer than this (s) to draw no longer holds back the numbers of the next edit."""
 
 NIGHT = Theme(
     name="protomix-night", dark=True,
@@ -161,6 +165,7 @@ class ExplorerApp(App[int]):
         self._undo: list[tuple[chem.Mixture, str]] = []
         self._redo: list[tuple[chem.Mixture, str]] = []
         self._generation = 0
+        self._plot_seconds = 0.0                            # how long the last plot took to draw
         self._autosave_on = False
         self._enabled: tuple[bool, ...] = ()
         self._utf8 = locale_is_utf8()
@@ -171,7 +176,7 @@ class ExplorerApp(App[int]):
     def compose(self) -> ComposeResult:
         yield TitleBar(id="title-bar")
         with Horizontal(id="upper"):
-            yield FlaskList(self._start, id="flask").data_bind(ExplorerApp.mixture)
+            yield FlaskList(self._start, id="flask")
             yield Readout(id="readout").data_bind(ExplorerApp.result, ExplorerApp.pinned, ExplorerApp.capacity)
         with Horizontal(id="lower"):
             yield SpeciesTable(id="species").data_bind(ExplorerApp.result, ExplorerApp.pinned)
@@ -215,6 +220,7 @@ class ExplorerApp(App[int]):
         return self.mixture != self._clean
 
     def watch_mixture(self, mixture: chem.Mixture) -> None:
+        self.query_one(FlaskList).propose(mixture)
         bar = self.query_one(TitleBar)
         bar.heading = mixture.title
         bar.source = self._source
@@ -294,7 +300,15 @@ class ExplorerApp(App[int]):
     @work(thread=True, exclusive=True, group="compute", exit_on_error=False, description="solve and plot")
     def _compute(self, generation: int, mixture: chem.Mixture, known: chem.Equilibrium | None,
                  kind: PlotKind, request: PlotRequest | None, base: Style) -> None:
+        """Solve (unless ``known``) and draw, then post the answer.
+
+        The numbers and the plot go out in one message, so the screen is painted
+        once per edit. The numbers go out alone first when they would otherwise
+        wait long: while chem.curves (for β) is still loading, and when the last
+        plot took longer than :data:`SLOW_PLOT_S` to draw.
+        """
         worker = get_current_worker()
+        pending: Solved | None = None                   # numbers not yet posted
         if known is None:
             result = chem.solve(mixture)
             # β costs ~1 ms once chem.curves is loaded; the first time, show the pH before loading it.
@@ -302,7 +316,10 @@ class ExplorerApp(App[int]):
             capacity = chem.buffer_capacity_at(result) if warm and result.converged else None
             if worker.is_cancelled:
                 return
-            self.post_message(Solved(generation, result, capacity))
+            pending = Solved(generation, result, capacity)
+            if not warm or request is None or self._plot_seconds > SLOW_PLOT_S:
+                self.post_message(pending)
+                pending = None
             if not warm:
                 capacity = chem.buffer_capacity_at(result) if result.converged else None
                 if worker.is_cancelled:
@@ -312,9 +329,17 @@ class ExplorerApp(App[int]):
             result = known
         if request is None:
             return
+        start = time.perf_counter()
         image = prepare(draw_kind(kind, result, request), request.width, base)
-        if not worker.is_cancelled:
-            self.post_message(Plotted(generation, image, self._plot_title(kind, request)))
+        self._plot_seconds = time.perf_counter() - start
+        if worker.is_cancelled:
+            return
+        plotted = Plotted(generation, image, self._plot_title(kind, request))
+        if pending is not None:
+            pending.plot = plotted
+            self.post_message(pending)
+        else:
+            self.post_message(plotted)
 
     @work(thread=True, group="capacity", exit_on_error=False, description="buffer capacity")
     def _capacity_of(self, generation: int, result: chem.Equilibrium) -> None:
@@ -324,10 +349,13 @@ class ExplorerApp(App[int]):
     @on(Solved)
     def _show_result(self, message: Solved) -> None:
         if message.generation == self._generation:
+            self.query_one(FlaskList).release()
             if message.capacity is not None or not message.result.converged:
                 self.capacity = message.capacity
             self.result = message.result
             self._update_keys()
+            if message.plot is not None:
+                self._show_plot(message.plot)
 
     @on(CapacityFound)
     def _show_capacity(self, message: CapacityFound) -> None:
@@ -337,6 +365,7 @@ class ExplorerApp(App[int]):
     @on(Plotted)
     def _show_plot(self, message: Plotted) -> None:
         if message.generation == self._generation:
+            self.query_one(FlaskList).release()
             self.query_one(PlotArea).show(message.image, message.title)
 
     @on(PlotArea.Resized)
@@ -440,10 +469,10 @@ class ExplorerApp(App[int]):
 
         self.push_screen(IngredientFinder(self.library), add)
 
-    def action_edit_amount(self) -> None:
+    async def action_edit_amount(self) -> None:
         flask = self.query_one(FlaskList)
         flask.focus()
-        flask.action_edit()
+        await flask.action_edit()
 
     @on(FlaskList.AmountEntered)
     def _amount_entered(self, message: FlaskList.AmountEntered) -> None:

@@ -16,6 +16,15 @@ from tui.widgets.plot_area import PlotImage
 
 
 @dataclass
+class Plotted(Message):
+    """The plot of request ``generation`` was built, ready to show as it is."""
+
+    generation: int
+    image: PlotImage
+    title: str
+
+
+@dataclass
 class Solved(Message):
     """The mixture of request ``generation`` was solved (``result.converged`` may be False)."""
 
@@ -23,6 +32,8 @@ class Solved(Message):
     result: chem.Equilibrium
     capacity: float | None = None
     """β at the solved pH, mol/(L·pH), when it was ready in time (else a :class:`CapacityFound` follows)."""
+    plot: Plotted | None = None
+    """The plot for this result when it was drawn in time (else a :class:`Plotted` follows, if any)."""
 
 
 @dataclass
@@ -32,12 +43,3 @@ class CapacityFound(Message):
     generation: int
     capacity: float | None
     """β at the solved pH, mol/(L·pH); None when the solve did not converge."""
-
-
-@dataclass
-class Plotted(Message):
-    """The plot of request ``generation`` was built, ready to show as it is."""
-
-    generation: int
-    image: PlotImage
-    title: str

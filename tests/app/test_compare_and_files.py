@@ -163,7 +163,7 @@ async def test_q_typed_into_an_amount_is_text_not_quit(acetate_buffer):
     async with app.run_test(size=(80, 24)) as pilot:
         await pilot.press("enter", "q")
         assert app.is_running
-        assert app.query_one("#flask").rows[0].editor.value == "q"
+        assert app.query_one("#flask").editor.value == "q"
         assert app.query_one(Readout) is not None
 
 

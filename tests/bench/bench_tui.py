@@ -42,7 +42,7 @@ import chem  # noqa: E402
 from textual import events  # noqa: E402
 
 from tui.app import ExplorerApp  # noqa: E402
-from tui.messages import Plotted  # noqa: E402
+from tui.messages import Plotted, Solved  # noqa: E402
 from tui.widgets.flask_list import FlaskList  # noqa: E402
 
 TEN = [("acetic acid", "20 mM"), ("sodium acetate", "15 mM"), ("disodium hydrogen phosphate", "10 mM"),
@@ -150,6 +150,10 @@ class TimedExplorer(ExplorerApp):
     def on_plotted(self, message: Plotted) -> None:
         self.plotted[message.generation] = time.perf_counter()
 
+    def on_solved(self, message: Solved) -> None:          # numbers and plot together
+        if message.plot is not None:
+            self.plotted[message.generation] = time.perf_counter()
+
     def _display(self, screen, renderable) -> None:
         super()._display(screen, renderable)
         if renderable is not None:
@@ -210,7 +214,7 @@ async def echo(trials: int, where: str, busy: bool) -> list[float]:
             entry = app.screen.query_one("#picker-query")
         else:
             await pilot.press("enter")
-            entry = app.query_one(FlaskList).rows[0].editor
+            entry = app.query_one(FlaskList).editor
         await pilot.pause(0.2)
         for i in range(trials):
             if busy:
