@@ -9,7 +9,7 @@ Pure numpy/scipy; no user-interface imports.
 
 from __future__ import annotations
 
-from ._solver import solve, tableau
+from ._solver import buffer_capacity_at, solve, tableau
 from .errors import ChemError, LibraryError, ModelError, PresetError, UnitError
 from .library import Library, load_library
 from .model import (AcidBaseSystem, Equilibrium, Ingredient, Ion, Mixture, Notice, Reagent, Species,
@@ -22,7 +22,7 @@ from .units import parse_concentration, parse_volume
 # should not pay for.
 _LAZY = {
     **{name: "curves" for name in ("CapacityCurve", "Curve", "CurveError", "EquivalencePoint", "TitrationCurve",
-                                   "buffer_capacity", "buffer_capacity_at", "dilution", "sweep", "titration")},
+                                   "buffer_capacity", "dilution", "sweep", "titration")},
     **{name: "recipe" for name in ("Recipe", "RecipeError", "design_buffer", "suggest_systems")},
 }
 

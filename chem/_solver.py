@@ -481,15 +481,30 @@ def solve(mixture: Mixture, *, tol: float = 1e-13, max_iter: int = 200) -> Equil
                      converged, iterations, pkw, a, b)
 
 
-def buffer_capacity(result: Equilibrium) -> float:
-    """Buffer capacity β (mol/(L·pH)) of a solved mixture at its pH; see :func:`_capacity_scalar`."""
-    mixture = result.mixture
+def buffer_capacity_at(source: Equilibrium | Mixture) -> float:
+    """Buffer capacity of a mixture at its own pH, mol/(L·pH).
+
+    β = dC_b/dpH for strong monovalent base added without change of volume,
+    exact for the model (activity corrections included): the implicit-function
+    theorem at the solved state, see :func:`_capacity_scalar`.  It agrees with
+    :func:`chem.curves.buffer_capacity` at the same pH.
+
+    Parameters
+    ----------
+    source : Equilibrium or Mixture
+        A solved mixture, or a mixture to solve.
+    """
+    if isinstance(source, Mixture):
+        source = solve(source)
+    if not isinstance(source, Equilibrium):
+        raise TypeError(f"buffer capacity needs a mixture or an equilibrium (got {source!r})")
+    mixture = source.mixture
     t = mixture.temperature_c
     q, i_s = _strong_sums(mixture.strong_ions())
     pkw, a, b = _water_constants(t)
     sys_data = [(total, *_scalar_system(sys_, t)) for sys_, total in mixture.systems()]
-    return _capacity_scalar(sys_data, q, i_s, 10.0 ** -pkw, a, b, mixture.activity,
-                            -result.pH, result.ionic_strength)
+    return float(_capacity_scalar(sys_data, q, i_s, 10.0 ** -pkw, a, b, mixture.activity,
+                                  -source.pH, source.ionic_strength))
 
 
 def _assemble(mixture: Mixture, pairs, strong, x: float, ionic: float, alphas, lgs, lg_h: float,

@@ -25,8 +25,7 @@ from typing import Callable, Sequence
 import numpy as np
 
 from ._batch import evaluate_at, solve_batch
-from . import _solver
-from ._solver import _strong_sums, layout_for, solve
+from ._solver import _strong_sums, buffer_capacity_at, layout_for, solve
 from .diagrams import default_grid
 from .errors import ChemError
 from .library import Library, load_library, normalise
@@ -576,25 +575,6 @@ def buffer_capacity(mixture: Mixture, ph=None, *, progress: Progress | None = No
     _report(progress, 1.0)
     return CapacityCurve(pH=ph, beta=beta, added_base=-ev["f"], ionic_strength=ionic, converged=converged,
                          mixture=mixture)
-
-
-def buffer_capacity_at(source: Equilibrium | Mixture) -> float:
-    """Buffer capacity of a mixture at its own pH, mol/(L·pH).
-
-    β = dC_b/dpH for strong monovalent base added without change of volume,
-    exact for the model (activity corrections included); see
-    :func:`buffer_capacity`.
-
-    Parameters
-    ----------
-    source : Equilibrium or Mixture
-        A solved mixture, or a mixture to solve.
-    """
-    if isinstance(source, Mixture):
-        source = solve(source)
-    if not isinstance(source, Equilibrium):
-        raise CurveError(f"buffer capacity needs a mixture or an equilibrium (got {source!r})")
-    return float(_solver.buffer_capacity(source))
 
 
 # --------------------------------------------------------------------------

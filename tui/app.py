@@ -32,7 +32,7 @@ from textual.worker import Worker, WorkerState, get_current_worker
 import chem
 from chem.activity import MODELS
 from tui import storage
-from tui.messages import CapacityFound, Plotted, Solved
+from tui.messages import Plotted, Solved
 from tui.widgets.flask_list import FlaskList
 from tui.widgets.notice_bar import NoticeBar
 from tui.widgets.plot_area import PlotArea, prepare
@@ -191,8 +191,8 @@ class ExplorerApp(App[int]):
         # The first solve takes about a millisecond: do it here, so the very first frame shows the pH
         # (the worker then only draws the plot).
         self.result = chem.solve(self._start)
+        self.capacity = chem.buffer_capacity_at(self.result) if self.result.converged else None
         self.mixture = self._start
-        self._capacity_of(self._generation, self.result)
         self.query_one(FlaskList).focus()
         self._offer_restore()
         # The key bar takes ~70 ms to build: add it after the first frame, so the pH shows sooner.
@@ -303,28 +303,20 @@ class ExplorerApp(App[int]):
         """Solve (unless ``known``) and draw, then post the answer.
 
         The numbers and the plot go out in one message, so the screen is painted
-        once per edit. The numbers go out alone first when they would otherwise
-        wait long: while chem.curves (for β) is still loading, and when the last
-        plot took longer than :data:`SLOW_PLOT_S` to draw.
+        once per edit; the numbers go out alone first when the last plot took
+        longer than :data:`SLOW_PLOT_S` to draw.
         """
         worker = get_current_worker()
         pending: Solved | None = None                   # numbers not yet posted
         if known is None:
             result = chem.solve(mixture)
-            # β costs ~1 ms once chem.curves is loaded; the first time, show the pH before loading it.
-            warm = "chem.curves" in sys.modules
-            capacity = chem.buffer_capacity_at(result) if warm and result.converged else None
+            capacity = chem.buffer_capacity_at(result) if result.converged else None
             if worker.is_cancelled:
                 return
             pending = Solved(generation, result, capacity)
-            if not warm or request is None or self._plot_seconds > SLOW_PLOT_S:
+            if request is None or self._plot_seconds > SLOW_PLOT_S:
                 self.post_message(pending)
                 pending = None
-            if not warm:
-                capacity = chem.buffer_capacity_at(result) if result.converged else None
-                if worker.is_cancelled:
-                    return
-                self.post_message(CapacityFound(generation, capacity))
         else:
             result = known
         if request is None:
@@ -341,26 +333,15 @@ class ExplorerApp(App[int]):
         else:
             self.post_message(plotted)
 
-    @work(thread=True, group="capacity", exit_on_error=False, description="buffer capacity")
-    def _capacity_of(self, generation: int, result: chem.Equilibrium) -> None:
-        """β of a result solved on the UI thread (the first one); loads chem.curves off the UI thread."""
-        self.post_message(CapacityFound(generation, chem.buffer_capacity_at(result) if result.converged else None))
-
     @on(Solved)
     def _show_result(self, message: Solved) -> None:
         if message.generation == self._generation:
             self.query_one(FlaskList).release()
-            if message.capacity is not None or not message.result.converged:
-                self.capacity = message.capacity
+            self.capacity = message.capacity
             self.result = message.result
             self._update_keys()
             if message.plot is not None:
                 self._show_plot(message.plot)
-
-    @on(CapacityFound)
-    def _show_capacity(self, message: CapacityFound) -> None:
-        if message.generation == self._generation:
-            self.capacity = message.capacity
 
     @on(Plotted)
     def _show_plot(self, message: Plotted) -> None:

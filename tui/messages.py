@@ -31,15 +31,6 @@ class Solved(Message):
     generation: int
     result: chem.Equilibrium
     capacity: float | None = None
-    """β at the solved pH, mol/(L·pH), when it was ready in time (else a :class:`CapacityFound` follows)."""
+    """β at the solved pH, mol/(L·pH); None when the solve did not converge."""
     plot: Plotted | None = None
     """The plot for this result when it was drawn in time (else a :class:`Plotted` follows, if any)."""
-
-
-@dataclass
-class CapacityFound(Message):
-    """The buffer capacity of request ``generation``'s solved mixture, computed after its pH was shown."""
-
-    generation: int
-    capacity: float | None
-    """β at the solved pH, mol/(L·pH); None when the solve did not converge."""
