@@ -9,7 +9,10 @@ newest is shown. Widgets draw; only :mod:`chem` computes.
 
 from __future__ import annotations
 
+import contextlib
 import gc
+import os
+import signal
 import sys
 import time
 from dataclasses import dataclass, replace
@@ -25,6 +28,7 @@ from textual.containers import Horizontal
 from textual.reactive import var
 from textual.screen import Screen
 from textual.theme import Theme
+from textual.timer import Timer
 from textual.widget import MountError
 from textual.widgets import Footer
 from textual.worker import Worker, WorkerState, get_current_worker
@@ -58,6 +62,8 @@ NUDGE_FACTORS = (1.25, 1.05)
 TEMPERATURE_STEP = 1.0
 #: Undo steps kept.
 HISTORY_LIMIT = 500
+#: Seconds after the last edit before the session is autosaved.
+AUTOSAVE_DELAY_S = 0.3
 
 SLOW_PLOT_S = 0.025
 """A plot that took longer than this (s) to draw no longer holds back the numbers of the next edit."""
@@ -167,6 +173,7 @@ class ExplorerApp(App[int]):
         self._generation = 0
         self._plot_seconds = 0.0                            # how long the last plot took to draw
         self._autosave_on = False
+        self._autosave_timer: Timer | None = None           # a write is due when it fires
         self._enabled: tuple[bool, ...] = ()
         self._utf8 = locale_is_utf8()
         self._titration: TitrationSettings | None = None   # None: default_titration(result)
@@ -208,6 +215,9 @@ class ExplorerApp(App[int]):
         # sweeps, which otherwise add tens of ms to an occasional keystroke.
         self.call_after_refresh(gc.freeze)
 
+    def on_unmount(self) -> None:
+        self.flush_autosave()                           # ended some other way than quitting: keep the edit
+
     def on_resize(self, event: events.Resize) -> None:
         main = self.screen_stack[0]
         main.set_class(event.size.width >= 110, "-wide")
@@ -227,7 +237,7 @@ class ExplorerApp(App[int]):
         bar.dirty = self.dirty
         self._recompute()
         if self._autosave_on:
-            self._autosave(mixture)
+            self._schedule_autosave()
         self._update_keys()
 
     def watch_pinned(self, pinned: chem.Equilibrium | None) -> None:
@@ -370,6 +380,28 @@ class ExplorerApp(App[int]):
                         title="Background task failed", severity="error", timeout=8)
 
     # -- autosave and restore ------------------------------------------------------------------
+    def _schedule_autosave(self) -> None:
+        """Autosave the mixture :data:`AUTOSAVE_DELAY_S` after the last edit.
+
+        Writing after every key press competed with solving and drawing for the
+        same interpreter; a hang-up or termination in the meantime writes the
+        pending autosave at once (:meth:`flush_autosave`), so nothing is lost.
+        """
+        if self._autosave_timer is not None:
+            self._autosave_timer.stop()
+        self._autosave_timer = self.set_timer(AUTOSAVE_DELAY_S, self._autosave_now)
+
+    def _autosave_now(self) -> None:
+        self._autosave_timer = None
+        self._autosave(self.mixture)
+
+    def flush_autosave(self) -> None:
+        """Write a pending autosave now, on the calling thread (the session is about to end)."""
+        if self._autosave_timer is not None:
+            self._autosave_timer.stop()
+            self._autosave_timer = None
+            storage.write_autosave(self.mixture)
+
     @work(thread=True, exclusive=True, group="autosave", exit_on_error=False, description="autosave")
     def _autosave(self, mixture: chem.Mixture) -> None:
         storage.write_autosave(mixture)
@@ -659,6 +691,9 @@ class ExplorerApp(App[int]):
         for worker in self.workers:
             if worker.group == "autosave":
                 await worker.wait()
+        if self._autosave_timer is not None:
+            self._autosave_timer.stop()
+            self._autosave_timer = None
         storage.clear_autosave()
         self.exit(0)
 
@@ -679,4 +714,17 @@ def run_explorer(path: str | None) -> int:
     except chem.ChemError as exc:
         print(f"protomix: error: {exc}", file=sys.stderr)
         return 2
-    return ExplorerApp(mixture, source=source, preset_name=name).run() or 0
+    app = ExplorerApp(mixture, source=source, preset_name=name)
+
+    def hang_up(signum: int, _frame) -> None:
+        # The terminal went away (a dropped SSH connection) or someone ended the process:
+        # keep the last edit, then end as the signal would have.
+        with contextlib.suppress(Exception):
+            app.flush_autosave()
+        signal.signal(signum, signal.SIG_DFL)
+        os.kill(os.getpid(), signum)
+
+    for name_ in ("SIGHUP", "SIGTERM"):
+        if hasattr(signal, name_):
+            signal.signal(getattr(signal, name_), hang_up)
+    return app.run() or 0

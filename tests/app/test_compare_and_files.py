@@ -6,7 +6,7 @@ import pytest
 
 import chem
 from tui import storage
-from tui.app import ExplorerApp
+from tui.app import AUTOSAVE_DELAY_S, ExplorerApp
 from tui.screens.choice import Choice
 from tui.screens.preset_picker import PresetPicker
 from tui.widgets.readout import Readout
@@ -114,9 +114,13 @@ async def test_every_edit_is_autosaved_and_offered_back_after_a_dropped_session(
     app = ExplorerApp(acetate_buffer)
     async with app.run_test(size=(80, 24)) as pilot:
         await pilot.press("right")
+        await pilot.pause(AUTOSAVE_DELAY_S + 0.1)        # written shortly after the last edit
         await settle(pilot)
         edited = app.mixture
         assert storage.read_autosave() == edited
+        await pilot.press("right")                      # ended before that: written as the app goes
+        edited = app.mixture
+    assert storage.read_autosave() == edited
     # the session ended without quitting (as when a connection drops): the next start offers it back
     app = ExplorerApp(acetate_buffer)
     async with app.run_test(size=(80, 24)) as pilot:

@@ -71,15 +71,18 @@ from tui.app import ExplorerApp
 import chem
 
 class Probe(ExplorerApp):
-    def on_mount(self):                      # runs after ExplorerApp's own on_mount
-        self.call_after_refresh(self._frame)
+    done = False
 
-    def _frame(self):                        # after a frame: did it show a pH?
-        if self.result is None:
-            self.call_after_refresh(self._frame)
+    def _display(self, screen, renderable):  # each composited frame: does it show the pH?
+        super()._display(screen, renderable)
+        now = time.time()
+        if renderable is None or self.done:
             return
-        print(time.time(), flush=True)
-        self.exit(0)
+        text = "\n".join(strip.text for strip in screen._compositor.render_strips())
+        if "pOH" in text and f"{self.result.pH:.3f}" in text:
+            self.done = True
+            print(now, flush=True)
+            self.exit(0)
 
 Probe(chem.demo_mixture(), source="demo").run(headless=True, size=(80, 24))
 """

@@ -13,6 +13,7 @@ from pathlib import Path
 import pytest
 
 import chem
+from tui.app import NUDGE_FACTORS
 
 ROOT = Path(__file__).resolve().parents[2]
 
@@ -78,6 +79,25 @@ def test_adding_a_reagent_in_a_real_terminal_changes_the_ph(pane, library):
     pane.wait_for("not saved as a preset")
     pane.keys("d")
     pane.wait_for(r"EXIT=0")
+
+
+def test_a_dropped_connection_keeps_the_last_edit(pane, tmp_path):
+    # Killing the terminal hangs up on the explorer within a moment of the edit, before its
+    # delayed autosave is due: the hang-up itself must write it.
+    pane.keys(f"cd {ROOT} && {sys.executable} -m tui", "Enter")
+    demo = chem.demo_mixture()
+    first = demo.ingredients[0]
+    pane.wait_for(rf"pH\s+{chem.solve(demo).pH:.3f}")
+    pane.keys("Right")
+    nudged = first.with_conc(first.conc * NUDGE_FACTORS[0])
+    pane.wait_for(re.escape(first.reagent.name) + r"\s+" + re.escape(nudged.label))
+    pane.close()                                        # the terminal goes away: SIGHUP
+    session = tmp_path / "data" / "session.toml"
+    end = time.monotonic() + 5.0
+    while not session.is_file() and time.monotonic() < end:
+        time.sleep(0.05)
+    saved = chem.load_preset(session)
+    assert saved.ingredients[0].conc == pytest.approx(nudged.conc, rel=1e-12)
 
 
 def test_a_bad_preset_path_gives_one_line_and_status_2(pane, tmp_path):

@@ -75,7 +75,9 @@ class _Rows(Widget):
         resized = len(entries) != len(self.entries)
         old_cursor = self.cursor
         self.entries, self.first, self.cursor, self.amount_width = new
-        if resized:
+        if not self.is_mounted:                         # sized before the first layout
+            self.styles.height = len(entries)
+        elif resized:
             self.styles.height = len(entries)
             self.refresh(layout=True)
         elif (entries, first, amount_width) == (self.entries, self.first, self.amount_width) and entries:
@@ -188,12 +190,10 @@ class FlaskList(VerticalScroll, can_focus=True):
         self._hold_timer: Timer | None = None
 
     def compose(self) -> ComposeResult:
+        self._paint()
         yield Label("Empty flask: pure water. Press n to add an ingredient.", id="flask-empty")
         yield self._above
         yield self._below
-
-    def on_mount(self) -> None:
-        self._paint()
 
     # -- what is shown -----------------------------------------------------------------------
     @property
