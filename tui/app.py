@@ -174,6 +174,7 @@ class ExplorerApp(App[int]):
         self._plot_seconds = 0.0                            # how long the last plot took to draw
         self._autosave_on = False
         self._autosave_timer: Timer | None = None           # a write is due when it fires
+        self._written: chem.Mixture | None = None           # what the autosave file holds
         self._enabled: tuple[bool, ...] = ()
         self._utf8 = locale_is_utf8()
         self._titration: TitrationSettings | None = None   # None: default_titration(result)
@@ -396,15 +397,27 @@ class ExplorerApp(App[int]):
         self._autosave(self.mixture)
 
     def flush_autosave(self) -> None:
-        """Write a pending autosave now, on the calling thread (the session is about to end)."""
+        """Write the autosave now, on the calling thread, unless it already holds the mixture.
+
+        For when the session is about to end: a delayed write still pending, or one
+        still running in its worker (the process may not live to finish it).
+        """
         if self._autosave_timer is not None:
             self._autosave_timer.stop()
             self._autosave_timer = None
+        if self._autosave_on and self.mixture is not None and self.mixture != self._written:
             storage.write_autosave(self.mixture)
+            self._written = self.mixture
+
+    def _start_autosave(self) -> None:
+        """From now on every edit is autosaved (the file holds the current mixture, or nothing to restore)."""
+        self._autosave_on = True
+        self._written = self.mixture
 
     @work(thread=True, exclusive=True, group="autosave", exit_on_error=False, description="autosave")
     def _autosave(self, mixture: chem.Mixture) -> None:
         storage.write_autosave(mixture)
+        self._written = mixture
 
     def _offer_restore(self) -> None:
         try:
@@ -415,7 +428,7 @@ class ExplorerApp(App[int]):
                         severity="warning", timeout=10)
             saved = None
         if saved is None or saved == self.mixture:
-            self._autosave_on = True
+            self._start_autosave()
             return
         from tui.screens.choice import Choice
 
@@ -430,7 +443,7 @@ class ExplorerApp(App[int]):
                 self.commit(saved, "restore the autosaved session")
             else:
                 storage.clear_autosave()
-            self._autosave_on = True
+            self._start_autosave()
 
         self.push_screen(Choice(question, [("y", "restore it", True), ("n", "discard it", False)],
                                 on_escape=False), answer)
@@ -688,6 +701,7 @@ class ExplorerApp(App[int]):
                                 on_escape=None), answer)
 
     async def _leave(self) -> None:
+        self._autosave_on = False                       # a clean end: nothing to keep
         for worker in self.workers:
             if worker.group == "autosave":
                 await worker.wait()

@@ -25,7 +25,7 @@ async def test_pinning_shows_changes_against_the_pinned_state(acetate_buffer, se
         await settle(pilot)
         after = app.result
         assert after.pH > before.pH
-        side = text_of(app.query_one("#ph-side"))
+        side = text_of(app.query_one(Readout))
         assert f"ΔpH {after.pH - before.pH:+.3f}" in side
         table = app.query_one(SpeciesTable)
         assert "Δlog C" in table.header
@@ -36,7 +36,8 @@ async def test_pinning_shows_changes_against_the_pinned_state(acetate_buffer, se
         await pilot.press("p")                          # unpin: deltas go away
         assert app.pinned is None
         assert "Δlog C" not in table.header
-        assert "ΔpH" not in text_of(app.query_one("#ph-side"))
+        await pilot.pause()
+        assert "ΔpH" not in text_of(app.query_one(Readout))
 
 
 async def test_a_species_missing_from_the_pinned_state_is_marked_new(acetate_buffer, settle, library):
@@ -129,6 +130,22 @@ async def test_every_edit_is_autosaved_and_offered_back_after_a_dropped_session(
         await settle(pilot)
         assert app.mixture == edited
         assert app.result.mixture == edited
+
+
+async def test_a_hang_up_writes_the_pending_autosave_at_once(acetate_buffer, data_dir):
+    # What the SIGHUP/SIGTERM handler calls: the edit is on disk before the delayed write is due.
+    app = ExplorerApp(acetate_buffer)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await pilot.press("right")
+        assert storage.read_autosave() is None          # not yet due
+        app.flush_autosave()
+        assert storage.read_autosave() == app.mixture
+        stamp = (data_dir / "session.toml").stat().st_mtime_ns
+        app.flush_autosave()                            # already on disk: not written again
+        assert (data_dir / "session.toml").stat().st_mtime_ns == stamp
+        await pilot.press("q", "d")                     # a clean quit leaves nothing behind
+        await pilot.pause()
+    assert storage.read_autosave() is None
 
 
 async def test_declining_the_restore_discards_the_autosave(acetate_buffer):

@@ -34,7 +34,7 @@ async def test_the_readout_shows_the_buffer_capacity_chem_computes(acetate_buffe
         await settle(pilot)
         beta = chem.buffer_capacity_at(chem.solve(acetate_buffer))
         assert app.capacity == pytest.approx(beta, rel=1e-9)
-        assert f"β {chem.format_molar(beta, 3)}/pH" in text_of(app.query_one("#conditions"))
+        assert f"β {chem.format_molar(beta, 3)}/pH" in text_of(app.query_one("#readout"))
 
 
 async def test_b_designs_a_recipe_loads_it_and_undo_brings_the_old_mixture_back(acetate_buffer, settle):

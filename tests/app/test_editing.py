@@ -3,12 +3,12 @@
 from __future__ import annotations
 
 import pytest
-from textual.widgets import Digits, Label
+from textual.widgets import Label
 
 import chem
 from tui.app import NUDGE_FACTORS, ExplorerApp
 from tui.widgets.flask_list import HOLD_S, FlaskList
-from tui.widgets.readout import Readout
+from tui.widgets.readout import Readout, big_digits
 
 
 async def test_a_reagent_added_through_the_finder_gives_the_ph_chem_solves(library, settle, text_of):
@@ -27,8 +27,9 @@ async def test_a_reagent_added_through_the_finder_gives_the_ph_chem_solves(libra
         assert app.mixture.ingredients[1].conc == pytest.approx(0.05)
         assert app.result.pH == pytest.approx(expected.pH, abs=1e-12)
         assert app.result.pH != pytest.approx(ph_before, abs=0.1)
-        assert app.query_one("#ph-digits", Digits).value == f"{expected.pH:.2f}"
-        assert f"pH  {expected.pH:.3f}" in text_of(app.query_one("#ph-side"))
+        readout = text_of(app.query_one(Readout))
+        assert all(row in readout for row in big_digits(f"{expected.pH:.2f}"))   # the large pH
+        assert f"pH  {expected.pH:.3f}" in readout
         assert "sodium acetate" in text_of(app.query_one(FlaskList))
 
 
@@ -135,9 +136,10 @@ async def test_temperature_and_activity_model_keys(acetate_buffer, settle, text_
         assert models[-1] == "davies"
         await pilot.press("m")
         await settle(pilot)
-        conditions = text_of(app.query_one("#conditions"))
-        assert "26.0 °C" in conditions and "β " in conditions
-        assert app.mixture.activity in text_of(app.query_one("#solve-state"))
+        readout = text_of(app.query_one(Readout)).splitlines()
+        conditions = next(i for i, line in enumerate(readout) if "°C" in line)
+        assert "26.0 °C" in readout[conditions] and "β " in readout[conditions]
+        assert app.mixture.activity in readout[conditions + 1] and "converged" in readout[conditions + 1]
 
 
 async def test_remove_then_undo_and_redo_walk_the_history(acetate_buffer, settle):

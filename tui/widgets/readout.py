@@ -1,14 +1,29 @@
-"""The readout panel: pH in large digits, with the conditions and the state of the solve."""
+"""The readout panel: pH in large digits, with the conditions and the state of the solve.
+
+One widget paints every line (the pH changes with almost every edit, and each
+extra widget in the panel made every such frame slower).
+"""
 
 from __future__ import annotations
 
-from textual.app import ComposeResult
-from textual.containers import Horizontal, Vertical
-from textual.content import Content
+import textwrap
+
+from rich.cells import cell_len, set_cell_size
+from rich.segment import Segment
+from rich.style import Style
+from textual.geometry import Region
 from textual.reactive import var
-from textual.widgets import Digits, Label, Static
+from textual.renderables.digits import Digits
+from textual.strip import Strip
+from textual.widget import Widget
 
 import chem
+
+Piece = tuple[str, str]
+"""A run of text and the name of its component style ("" for the panel's own)."""
+
+_LABEL_WIDTH = 3        # "pH" beside the large digits
+_GAP = 2                # between the digits and the numbers beside them
 
 
 def signed(value: float, digits: int) -> str:
@@ -17,12 +32,22 @@ def signed(value: float, digits: int) -> str:
     return "±" + text[1:] if float(text) == 0.0 else text
 
 
-class Readout(Vertical):
+def big_digits(text: str) -> list[str]:
+    """``text`` in the three-row bold digit font, one string per row."""
+    rows = "".join(segment.text for segment in Digits(text).render(Style(bold=True))).split("\n")
+    return rows[:3]
+
+
+class Readout(Widget):
     """pH (large), pOH, temperature, ionic strength, buffer capacity, activity model, convergence and notices.
 
     While a state is pinned, the change of pH against it is shown too. Where there is
-    room, pKw, the remaining charge-balance error and each system's total follow.
+    room (class ``-more`` on the screen: tall terminals), pKw, the remaining
+    charge-balance error and each system's total follow.
     """
+
+    COMPONENT_CLASSES = {"readout--big", "readout--bold", "readout--delta", "readout--dim", "readout--ok",
+                         "readout--bad", "readout--warn"}
 
     result: var[chem.Equilibrium | None] = var(None, init=False)
     """The solved mixture on display."""
@@ -31,14 +56,15 @@ class Readout(Vertical):
     capacity: var[float | None] = var(None, init=False)
     """Buffer capacity β at the current pH, mol/(L·pH), or None."""
 
-    def compose(self) -> ComposeResult:
-        with Horizontal(id="ph-line"):
-            yield Label("pH", id="ph-label")
-            yield Digits("-.--", id="ph-digits")
-            yield Static("", id="ph-side")
-        yield Static("solving…", id="conditions")
-        yield Static("", id="solve-state")
-        yield Static("", id="readout-more")
+    def __init__(self, *, id: str | None = None) -> None:
+        super().__init__(id=id)
+        self._lines: list[list[Piece]] = [[("solving…", "")]]
+        self._width = 0
+
+    @property
+    def lines(self) -> list[str]:
+        """What the panel shows, as plain text (before cutting to its width)."""
+        return ["".join(text for text, _ in line) for line in self._lines]
 
     def watch_result(self) -> None:
         self._redraw()
@@ -49,36 +75,73 @@ class Readout(Vertical):
     def watch_capacity(self) -> None:
         self._redraw()
 
-    def _show(self, selector: str, content: Content) -> None:
-        """Update one line of the readout, unless it reads the same (saves a repaint)."""
-        widget = self.query_one(selector, Static)
-        if widget.visual != content:
-            widget.update(content, layout=False)
+    def on_resize(self) -> None:
+        self._redraw()
 
     def _redraw(self) -> None:
         eq = self.result
         if eq is None:
             return
-        digits = self.query_one("#ph-digits", Digits)
-        if digits.value != f"{eq.pH:.2f}":
-            digits.update(f"{eq.pH:.2f}")
-        parts: list[str | tuple[str, str]] = [(f"pH  {eq.pH:.3f}", "bold"), f"\npOH {eq.pOH:.3f}"]
+        width = self.content_size.width
+        digits = big_digits(f"{eq.pH:.2f}")
+        side: list[list[Piece]] = [[(f"pH  {eq.pH:.3f}", "readout--bold")], [(f"pOH {eq.pOH:.3f}", "")], []]
         if self.pinned is not None:
-            parts.append((f"\nΔpH {signed(eq.pH - self.pinned.pH, 3)}", "bold $accent"))
-        self._show("#ph-side", Content.assemble(*parts))
+            side[2] = [(f"ΔpH {signed(eq.pH - self.pinned.pH, 3)}", "readout--delta")]
+        lines: list[list[Piece]] = []
+        for row, (big, beside) in enumerate(zip(digits, side)):
+            label = "pH" if row == 1 else ""
+            lines.append([(label.ljust(_LABEL_WIDTH), "readout--big"), (big, "readout--big"), (" " * _GAP, ""),
+                          *beside])
         mix = eq.mixture
         beta = "" if self.capacity is None else f"  β {chem.format_molar(self.capacity, 3)}/pH"
-        self._show("#conditions", Content(f"{mix.temperature_c:.1f} °C  I {eq.ionic_strength:.3g} M{beta}"))
-        state: list[str | tuple[str, str]] = [
-            ("✓ converged", "$success") if eq.converged else ("✗ NOT converged", "bold $error"),
-            f"  {mix.activity}"]
+        lines.append([(f"{mix.temperature_c:.1f} °C  I {eq.ionic_strength:.3g} M{beta}", "")])
+        state: list[Piece] = [("✓ converged", "readout--ok") if eq.converged else ("✗ NOT converged", "readout--bad"),
+                              (f"  {mix.activity}", "")]
         if eq.cautions:
             n = len(eq.cautions)
-            state += ["  ", (f"{n} caution{'s' * (n > 1)}", "bold $error")]
+            state += [("  ", ""), (f"{n} caution{'s' * (n > 1)}", "readout--bad")]
         n = len(eq.warnings)
-        state += ["  ", (f"{n} warning{'s' * (n != 1)}", "$warning" if n else "dim")]
-        self._show("#solve-state", Content.assemble(*state))
+        state += [("  ", ""), (f"{n} warning{'s' * (n != 1)}", "readout--warn" if n else "readout--dim")]
+        lines.append(state)
+        lines.append([])
+        lines.append([("pKw ", "readout--dim"), (f"{eq.pKw:.3f}", ""), ("   balance error ", "readout--dim"),
+                      (f"{abs(eq.balance_error):.1e} M", "")])
         totals = ", ".join(f"{name} {chem.format_molar(total)}" for name, total in eq.systems) or "none"
-        self._show("#readout-more", Content.assemble(
-            ("pKw ", "dim"), f"{eq.pKw:.3f}", ("   balance error ", "dim"), f"{abs(eq.balance_error):.1e} M",
-            ("\nsystems ", "dim"), totals))
+        wrapped = textwrap.wrap(f"systems {totals}", max(width, 20), break_on_hyphens=False) or [""]
+        lines.append([("systems", "readout--dim"), (wrapped[0][len("systems"):], "")])
+        lines += [[(more, "")] for more in wrapped[1:]]
+        self._repaint_changed(lines, width)
+
+    def _repaint_changed(self, lines: list[list[Piece]], width: int) -> None:
+        """Keep ``lines`` and repaint only the lines that differ from those shown."""
+        old, self._lines = self._lines, lines
+        if width != self._width:
+            self._width = width
+            self.refresh()
+            return
+        for y in range(max(len(old), len(lines))):
+            if y >= len(old) or y >= len(lines) or old[y] != lines[y]:
+                self.refresh(Region(0, y, self.size.width, 1))
+
+    def render_lines(self, crop: Region) -> list[Strip]:
+        base = self.rich_style                          # computed once per paint, not per line
+        self._styles = {"": base, **{name: base + self.get_component_rich_style(name, partial=True)
+                                     for name in self.COMPONENT_CLASSES}}
+        return super().render_lines(crop)
+
+    def render_line(self, y: int) -> Strip:
+        width = self.content_size.width
+        styles = self._styles
+        base = styles[""]
+        if y >= len(self._lines):
+            return Strip.blank(width, base)
+        segments, used = [], 0
+        for text, style in self._lines[y]:
+            if used >= width:
+                break
+            room = width - used
+            if cell_len(text) > room:
+                text = set_cell_size(text, room - 1) + "…"
+            segments.append(Segment(text, styles[style]))
+            used += cell_len(text)
+        return Strip(segments).extend_cell_length(width, base)
