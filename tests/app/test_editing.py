@@ -212,3 +212,21 @@ async def test_removing_from_an_empty_flask_does_nothing():
         assert app.mixture == chem.Mixture()
         assert not app.query_one(FlaskList).editing
         assert app.query_one(Readout) is not None
+
+
+async def test_the_selected_row_stays_in_view_when_the_flask_outgrows_its_panel(settle, text_of):
+    app = ExplorerApp(chem.demo_mixture())               # four rows; the panel holds five at 80x24
+    async with app.run_test(size=(80, 24)) as pilot:
+        await settle(pilot)
+        flask = app.query_one(FlaskList)
+        for typed in ("NaOH", "boric acid"):
+            await pilot.press("n", *typed)
+            await pilot.press("enter", *"2 mM", "enter")  # added and selected
+            await settle(pilot)
+        shown = text_of(flask)
+        assert app.selected.reagent.name == "boric acid" and "boric acid" in shown
+        first = app.mixture.ingredients[0].reagent.name
+        assert first not in shown                        # scrolled down to the new row
+        await pilot.press(*["up"] * 5)
+        await pilot.pause()
+        assert first in text_of(flask)

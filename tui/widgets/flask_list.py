@@ -86,6 +86,12 @@ class _Rows(Widget):
         else:
             self.refresh()
 
+    def on_resize(self) -> None:
+        # More or fewer rows have been laid out: keep the cursor in view (the scroll
+        # asked for when the cursor moved may have come before this layout).
+        if isinstance(self.parent, FlaskList):
+            self.parent.call_after_refresh(self.parent.scroll_to_cursor)
+
     def refresh_line(self, y: int) -> None:
         if 0 <= y < len(self.entries):
             self.refresh(Region(0, y, self.size.width, 1))
@@ -256,7 +262,7 @@ class FlaskList(VerticalScroll, can_focus=True):
 
     def watch_cursor(self) -> None:
         self._paint()
-        self.call_after_refresh(self._scroll_to_cursor)
+        self.call_after_refresh(self.scroll_to_cursor)
         self.post_message(self.Selected())
 
     def _paint(self) -> None:
@@ -266,7 +272,11 @@ class FlaskList(VerticalScroll, can_focus=True):
         self._above.show(entries[:split], 0, self.cursor, amount_width)
         self._below.show(entries[split + 1:], split + 1, self.cursor, amount_width)
 
-    def _scroll_to_cursor(self) -> None:
+    def on_resize(self) -> None:
+        self.call_after_refresh(self.scroll_to_cursor)
+
+    def scroll_to_cursor(self) -> None:
+        """Scroll so that the selected row is in view."""
         if self._edited is not None or not self._ingredients:
             return
         top = self._above.virtual_region.y
