@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import re
+
 import pytest
 from textual.widgets import Label
 
@@ -230,3 +232,18 @@ async def test_the_selected_row_stays_in_view_when_the_flask_outgrows_its_panel(
         await pilot.press(*["up"] * 5)
         await pilot.pause()
         assert first in text_of(flask)
+
+
+async def test_undo_repaints_a_row_the_cursor_has_left(acetate_buffer, settle, text_of):
+    app = ExplorerApp(acetate_buffer)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await settle(pilot)
+        flask = app.query_one(FlaskList)
+        await pilot.press("down", "right")              # sodium acetate 50 mM -> 62.5 mM
+        await settle(pilot)
+        assert "62.5 mM" in text_of(flask)
+        await pilot.press("up", "u")                    # cursor on acetic acid; undo changes the other row
+        await settle(pilot)
+        assert app.mixture == acetate_buffer
+        assert "62.5 mM" not in text_of(flask)
+        assert re.search(r"sodium acetate\s+50 mM", text_of(flask))

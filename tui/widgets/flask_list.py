@@ -69,20 +69,19 @@ class _Rows(Widget):
 
     def show(self, entries: tuple[tuple[str, str], ...], first: int, cursor: int, amount_width: int) -> None:
         """Paint ``entries`` (flask rows ``first`` onwards) with the cursor on flask row ``cursor``."""
-        new = (entries, first, cursor, amount_width)
-        if new == (self.entries, self.first, self.cursor, self.amount_width):
+        old_entries, old_first, old_cursor, old_width = self.entries, self.first, self.cursor, self.amount_width
+        if (entries, first, cursor, amount_width) == (old_entries, old_first, old_cursor, old_width):
             return
-        resized = len(entries) != len(self.entries)
-        old_cursor = self.cursor
-        self.entries, self.first, self.cursor, self.amount_width = new
+        self.entries, self.first, self.cursor, self.amount_width = entries, first, cursor, amount_width
         if not self.is_mounted:                         # sized before the first layout
             self.styles.height = len(entries)
-        elif resized:
+        elif len(entries) != len(old_entries):
             self.styles.height = len(entries)
             self.refresh(layout=True)
-        elif (entries, first, amount_width) == (self.entries, self.first, self.amount_width) and entries:
-            self.refresh_line(old_cursor - first)       # only the cursor moved
-            self.refresh_line(cursor - first)
+        elif (first, amount_width) == (old_first, old_width):
+            for y, (now, before) in enumerate(zip(entries, old_entries)):   # only the rows that changed
+                if now != before or first + y in (cursor, old_cursor):
+                    self.refresh_line(y)
         else:
             self.refresh()
 
