@@ -115,11 +115,6 @@ class _Rows(Widget):
         return Strip([Segment(_fit(name, width - amount_width), style), Segment(pad, style),
                       Segment(shown, style + amount_style)])
 
-    @property
-    def plain(self) -> list[str]:
-        """The rows as plain text."""
-        return [f"{name}  {amount}" for name, amount in self.entries]
-
 
 class _EditRow(Vertical):
     """The row being edited: its name, an amount entry and (when the entry is refused) why."""
@@ -215,12 +210,6 @@ class FlaskList(VerticalScroll, can_focus=True):
     def error(self) -> str | None:
         """Why the amount being typed is refused (as shown under it), or None."""
         return self._error
-
-    @property
-    def lines(self) -> list[str]:
-        """The rows as plain text (the edited one with its name only)."""
-        edited = [] if self._edited is None else [self._ingredients[self._edited].reagent.name]
-        return self._above.plain + edited + self._below.plain
 
     def propose(self, mixture: chem.Mixture) -> None:
         """Show ``mixture``; a change of amounts only waits for :meth:`release` (at most :data:`HOLD_S`).

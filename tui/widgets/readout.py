@@ -61,11 +61,6 @@ class Readout(Widget):
         self._lines: list[list[Piece]] = [[("solving…", "")]]
         self._width = 0
 
-    @property
-    def lines(self) -> list[str]:
-        """What the panel shows, as plain text (before cutting to its width)."""
-        return ["".join(text for text, _ in line) for line in self._lines]
-
     def watch_result(self) -> None:
         self._redraw()
 
