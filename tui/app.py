@@ -64,9 +64,8 @@ TEMPERATURE_STEP = 1.0
 HISTORY_LIMIT = 500
 #: Seconds after the last edit before the session is autosaved.
 AUTOSAVE_DELAY_S = 0.3
-
+#: A plot that took longer than this (s) to draw no longer holds back the numbers of the next edit.
 SLOW_PLOT_S = 0.025
-"""A plot that took longer than this (s) to draw no longer holds back the numbers of the next edit."""
 
 NIGHT = Theme(
     name="protomix-night", dark=True,
