@@ -124,6 +124,11 @@ COMMANDS: tuple[Command, ...] = (
 )
 
 
+def _collect_from_now_on() -> None:
+    gc.freeze()
+    gc.enable()
+
+
 def _bindings() -> list[Binding]:
     return [Binding(c.key, c.action, c.label, show=c.footer, key_display=c.key_display, tooltip=c.help,
                     id=c.action.split("(")[0].replace("_", "-"))
@@ -212,8 +217,9 @@ class ExplorerApp(App[int]):
             return
         self.screen_stack[0].refresh_bindings()         # the footer fills itself on this signal
         # Everything built so far lives as long as the app: keep it out of the garbage collector's
-        # sweeps, which otherwise add tens of ms to an occasional keystroke.
-        self.call_after_refresh(gc.freeze)
+        # sweeps, which otherwise add tens of ms to an occasional keystroke. The entry point turns
+        # the collector off for the start-up; from here on it runs.
+        self.call_after_refresh(_collect_from_now_on)
 
     def on_unmount(self) -> None:
         self.flush_autosave()                           # ended some other way than quitting: keep the edit

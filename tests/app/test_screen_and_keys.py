@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import gc
 import re
 
 import pytest
@@ -246,3 +247,19 @@ async def test_a_failure_in_the_background_is_reported_not_swallowed(acetate_buf
         messages = [n.message for n in app._notifications]
         assert any("solve and plot failed" in m and "plot exploded" in m for m in messages)
         assert app.result is not None                   # the solve itself still reached the readout
+
+
+async def test_the_garbage_collector_is_back_on_once_the_first_frame_is_up(acetate_buffer, settle):
+    # The entry point switches the collector off for the start-up (tui.cli.main); the explorer
+    # must switch it back on, or a long session would never free reference cycles.
+    gc.disable()
+    try:
+        app = ExplorerApp(acetate_buffer)
+        async with app.run_test(size=(80, 24)) as pilot:
+            await settle(pilot)
+            await pilot.pause(0.1)
+            assert gc.isenabled()
+            assert gc.get_freeze_count() > 0             # what start-up built is kept out of the sweeps
+    finally:
+        gc.enable()
+        gc.unfreeze()

@@ -66,7 +66,8 @@ def summary(values_ms: list[float]) -> str:
 # -- start-up -----------------------------------------------------------------------------------
 
 CHILD = r"""
-import sys, time
+import gc, sys, time
+gc.disable()                                 # as the entry point does before loading the explorer
 from tui.app import ExplorerApp
 import chem
 
