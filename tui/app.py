@@ -9,6 +9,7 @@ newest is shown. Widgets draw; only :mod:`chem` computes.
 
 from __future__ import annotations
 
+import asyncio
 import contextlib
 import gc
 import os
@@ -155,15 +156,19 @@ class ExplorerApp(App[int]):
     capacity: var[float | None] = var(None, init=False)
     """Buffer capacity β of :attr:`result` at its pH, mol/(L·pH)."""
 
-    def __init__(self, mixture: chem.Mixture, *, source: str = "", preset_name: str = "") -> None:
+    def __init__(self, mixture: chem.Mixture, *, source: str = "", preset_name: str = "",
+                 handle_signals: bool = False) -> None:
         """Create the explorer.
 
         Args:
             mixture: What is in the flask at the start.
             source: Where it came from, for the title bar (e.g. a file name).
             preset_name: Name offered when saving (a user preset's name, or empty).
+            handle_signals: Keep the last edit on SIGHUP (the terminal went away) and quit
+                cleanly on SIGTERM; for the real program, not for tests.
         """
         super().__init__()
+        self._handle_signals = handle_signals
         self.register_theme(NIGHT)
         self.register_theme(DAY)
         self.theme = NIGHT.name
@@ -206,6 +211,8 @@ class ExplorerApp(App[int]):
         self.capacity = chem.buffer_capacity_at(self.result) if self.result.converged else None
         self.mixture = self._start
         self.query_one(FlaskList).focus()
+        if self._handle_signals:
+            self._catch_signals()
         self._offer_restore()
         # The key bar takes ~70 ms to build: add it after the first frame, so the pH shows sooner.
         self.call_after_refresh(self._finish_start)
@@ -223,6 +230,25 @@ class ExplorerApp(App[int]):
 
     def on_unmount(self) -> None:
         self.flush_autosave()                           # ended some other way than quitting: keep the edit
+
+    def _catch_signals(self) -> None:
+        loop = asyncio.get_running_loop()
+        with contextlib.suppress(AttributeError, NotImplementedError, RuntimeError):   # not on every platform
+            loop.add_signal_handler(signal.SIGHUP, self._hung_up)
+            loop.add_signal_handler(signal.SIGTERM, self._terminated)
+
+    def _hung_up(self) -> None:
+        """The terminal went away (a dropped SSH connection): keep the last edit, then end as SIGHUP would."""
+        with contextlib.suppress(Exception):
+            self.flush_autosave()
+        asyncio.get_running_loop().remove_signal_handler(signal.SIGHUP)     # back to the default action
+        os.kill(os.getpid(), signal.SIGHUP)
+
+    def _terminated(self) -> None:
+        """Asked to end (SIGTERM): keep the last edit and quit, giving the terminal back as it was."""
+        with contextlib.suppress(Exception):
+            self.flush_autosave()
+        self.exit(128 + signal.SIGTERM)
 
     def on_resize(self, event: events.Resize) -> None:
         main = self.screen_stack[0]
@@ -733,17 +759,5 @@ def run_explorer(path: str | None) -> int:
     except chem.ChemError as exc:
         print(f"protomix: error: {exc}", file=sys.stderr)
         return 2
-    app = ExplorerApp(mixture, source=source, preset_name=name)
-
-    def hang_up(signum: int, _frame) -> None:
-        # The terminal went away (a dropped SSH connection) or someone ended the process:
-        # keep the last edit, then end as the signal would have.
-        with contextlib.suppress(Exception):
-            app.flush_autosave()
-        signal.signal(signum, signal.SIG_DFL)
-        os.kill(os.getpid(), signum)
-
-    for name_ in ("SIGHUP", "SIGTERM"):
-        if hasattr(signal, name_):
-            signal.signal(getattr(signal, name_), hang_up)
+    app = ExplorerApp(mixture, source=source, preset_name=name, handle_signals=True)
     return app.run() or 0

@@ -2,8 +2,10 @@
 
 from __future__ import annotations
 
+import os
 import re
 import shutil
+import signal
 import subprocess
 import sys
 import time
@@ -48,6 +50,13 @@ class Pane:
 
     def close(self) -> None:
         subprocess.run([*self.tmux, "kill-server"], capture_output=True)
+
+
+def _cmdline(proc: Path) -> bytes:
+    try:
+        return (proc / "cmdline").read_bytes()
+    except OSError:                                     # the process ended meanwhile
+        return b""
 
 
 @pytest.fixture
@@ -97,6 +106,27 @@ def test_a_dropped_connection_keeps_the_last_edit(pane, tmp_path):
     while not session.is_file() and time.monotonic() < end:
         time.sleep(0.05)
     saved = chem.load_preset(session)
+    assert saved.ingredients[0].conc == pytest.approx(nudged.conc, rel=1e-12)
+
+
+def test_sigterm_keeps_the_last_edit_and_gives_the_terminal_back(pane, tmp_path):
+    preset = tmp_path / f"term-{uuid.uuid4().hex[:8]}.toml"      # a name to find the process by
+    demo = chem.demo_mixture()
+    chem.save_preset(demo, preset)
+    pane.keys(f"cd {ROOT} && {sys.executable} -m tui {preset}; echo EXIT=$?", "Enter")
+    first = demo.ingredients[0]
+    pane.wait_for(rf"pH\s+{chem.solve(demo).pH:.3f}")
+    pane.keys("Right")
+    nudged = first.with_conc(first.conc * NUDGE_FACTORS[0])
+    pane.wait_for(re.escape(first.reagent.name) + r"\s+" + re.escape(nudged.label))
+    pids = [int(p.name) for p in Path("/proc").iterdir()
+            if p.name.isdigit() and preset.name.encode() in _cmdline(p) and b"-m\0tui" in _cmdline(p)]
+    assert pids, "the explorer's process was not found"
+    for pid in pids:
+        os.kill(pid, signal.SIGTERM)
+    pane.wait_for(r"EXIT=143")
+    assert "Flask" not in pane.text()                   # the explorer's screen is gone, the shell is back
+    saved = chem.load_preset(tmp_path / "data" / "session.toml")
     assert saved.ingredients[0].conc == pytest.approx(nudged.conc, rel=1e-12)
 
 
