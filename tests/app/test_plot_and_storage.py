@@ -152,3 +152,29 @@ def test_autosave_round_trips_and_clears(acetate_buffer):
     storage.clear_autosave()
     storage.clear_autosave()                            # twice is harmless
     assert storage.read_autosave() is None
+
+
+@pytest.mark.parametrize("dark,color,utf8", [(True, True, True), (False, True, True), (True, False, True),
+                                             (True, True, False)])
+def test_plot_text_is_what_plotext_itself_would_build(dark, color, utf8, demo_result, monkeypatch):
+    # figure_text joins plotext's character matrix faster than plotext does; the text must be the same.
+    from tui.widgets import curve_kinds, plot_kinds
+
+    original = plot_kinds.figure_text
+    checked = []
+
+    def compared(fig):
+        ours = original(fig)
+        fig.monitor.matrix.set_canvas()                 # plotext's own join of the same matrix
+        assert ours == fig.monitor.matrix.get_canvas()
+        checked.append(fig)
+        return ours
+
+    monkeypatch.setattr(plot_kinds, "figure_text", compared)
+    monkeypatch.setattr(curve_kinds, "figure_text", compared)
+    style = PlotStyle.for_terminal(dark=dark, color=color, utf8=utf8)
+    kinds = PLOT_KINDS + curve_kinds.curve_kinds(None, None)
+    for kind in kinds:
+        for system in (None, "citrate"):
+            draw_kind(kind, demo_result, PlotRequest(kind.id, 70, 24, system, style))
+    assert len(checked) == 2 * len(kinds)

@@ -38,7 +38,7 @@ from textual.worker import NoActiveWorker, get_current_worker
 import chem
 from chem import curves
 from tui.widgets.plot_kinds import (_BOX_TO_ASCII, RGB, Drawing, LegendLine, PlotKind, PlotRequest, draw,
-                                    grid_points, simplify)
+                                    figure_text, grid_points, simplify)
 from tui.widgets.plot_kinds import draw_kind  # noqa: F401  (re-exported: one entry point for every kind)
 
 #: The ids of the kinds made here, in the order the chart cycles through them.
@@ -373,7 +373,7 @@ def draw_xy(x: np.ndarray, y: np.ndarray, request: PlotRequest, *, xlabel: str, 
         right = at > p_lo + 0.7 * (p_hi - p_lo)
         fig.text(_say(mark.label, request), x=float(from_plot(at - pad if right else at + pad)), y=ylim[1],
                  color=style.guide, alignment="right" if right else "left")
-    out = fig.build().rstrip("\n")
+    out = figure_text(fig).rstrip("\n")
     if style.ascii:
         out = out.translate(_BOX_TO_ASCII)
     return Drawing(out, legend)

@@ -15,6 +15,7 @@ from __future__ import annotations
 import os
 import re
 from dataclasses import dataclass
+from itertools import groupby
 from typing import Callable, Mapping, Sequence
 
 import numpy as np
@@ -183,6 +184,32 @@ def visible_runs(y: np.ndarray, floor: float) -> list[slice]:
     return [slice(max(a - 1, 0), min(b + 1, len(y))) for a, b in zip(edges[::2], edges[1::2])]
 
 
+def figure_text(fig) -> str:
+    """What plotext's ``fig.build()`` returns, with the last step done in one pass per line.
+
+    plotext builds a matrix of characters and colours, then joins it into text cell by
+    cell, comparing colour lists at every cell: 2–3 ms at 70x25, a fifth of a plot's
+    cost. Here runs of equal colour are joined at once. The text is the same, code for
+    code (a test compares it with plotext's own ``build()``).
+    """
+    from plotext import _utility as ut  # noqa: PLC0415 - loaded with plotext, in the worker
+
+    fig._set_sizes()
+    fig._build_matrix()
+    matrix = fig.monitor.matrix
+    to_ansi, end = ut.colors_to_ansi, ut.ansi_end
+    lines = []
+    for row in range(matrix.rows - 1, -1, -1):
+        markers = matrix.marker[row]
+        pieces, col = [], 0
+        for colors, run in groupby(zip(matrix.fullground[row], matrix.style[row], matrix.background[row])):
+            n = sum(1 for _ in run)
+            pieces.append(to_ansi(*colors) + "".join(markers[col:col + n]) + end)
+            col += n
+        lines.append("".join(pieces))
+    return "\n".join(lines) + "\n"
+
+
 def _legend(labels: Sequence[str], style: PlotStyle, width: int, max_rows: int) -> tuple[LegendLine, ...]:
     """Series names with their symbols, wrapped to ``width``, at most ``max_rows`` lines."""
     lines: list[list[tuple[str, RGB | None]]] = [[]]
@@ -250,7 +277,7 @@ def draw(x: np.ndarray, curves: Sequence[tuple[str, np.ndarray]], ph: float, req
         right = ph > lo + 0.7 * (hi - lo)
         fig.text(f"pH {ph:.2f}", x=ph - 0.15 if right else ph + 0.15, y=ylim[1],
                  color=style.guide, alignment="right" if right else "left")
-    out = fig.build().rstrip("\n")
+    out = figure_text(fig).rstrip("\n")
     if style.ascii:
         out = out.translate(_BOX_TO_ASCII)
     return Drawing(out, legend)
