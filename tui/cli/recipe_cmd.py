@@ -10,6 +10,8 @@ import json
 import sys
 from pathlib import Path
 
+from tui.cli.solve_cmd import notice_lines
+
 HELP = "design a buffer recipe (grams, titrant or stock volumes) for a pH at a temperature"
 
 DESCRIPTION = """\
@@ -93,10 +95,7 @@ def render_recipe(recipe) -> str:
         out.append(f"  predicts pH {sc.pH:.3f} for this recipe ({sc.pH - recipe.pH:+.3f} against the full equilibrium)")
     if sc.recipe_pH is not None:
         out.append(f"  a recipe designed by the shortcut would really give pH {sc.recipe_pH:.3f} at {t:g} °C")
-    for w in recipe.warnings:
-        out.append(f"warning [{w.code}]: {w.message}")
-    for c in recipe.cautions:
-        out.append(f"CAUTION [{c.code}]: {c.message}")
+    out += notice_lines(recipe)
     out.append("")
     out.append("Model estimate: check with a calibrated pH meter at the working temperature.")
     return "\n".join(out)

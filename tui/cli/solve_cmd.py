@@ -9,6 +9,12 @@ import sys
 HELP = "print the equilibrium of a preset as a table (or --json)"
 
 
+def notice_lines(result) -> list[str]:
+    """One line per warning, then per caution, of a solved result or a recipe."""
+    return ([f"warning [{w.code}]: {w.message}" for w in result.warnings]
+            + [f"CAUTION [{c.code}]: {c.message}" for c in result.cautions])
+
+
 def add_arguments(parser) -> None:
     parser.add_argument("file", metavar="FILE.toml", help="preset file to solve")
     parser.add_argument("--json", action="store_true", help="print the result as one JSON object")
@@ -50,10 +56,7 @@ def render_table(eq) -> str:
     if eq.systems:
         out.append("")
         out.append("totals: " + ", ".join(f"{n} {format_molar(c)}" for n, c in eq.systems))
-    for w in eq.warnings:
-        out.append(f"warning [{w.code}]: {w.message}")
-    for c in eq.cautions:
-        out.append(f"CAUTION [{c.code}]: {c.message}")
+    out += notice_lines(eq)
     out.append("")
     out.append("Model estimate: check against measurement; defer to safety data sheets, local codes and licensed practice.")
     return "\n".join(out)
