@@ -147,6 +147,8 @@ class Structure:
     model: ActivityModel
     fast: bool
     """Pure acid–base: no complexes, no solids that may form, no fixed gases."""
+    supplied: np.ndarray
+    """Components a fixed gas can supply (never "really zero")."""
     alk_level: np.ndarray
     """Per species: acceptors minus donors relative to the pK 4.5 reference level (alkalinity)."""
 
@@ -225,9 +227,10 @@ def _problem(mixture: Mixture, struct: Structure) -> Problem:
     totals, q, i_s = component_totals(struct, mixture.ingredients)
     reactive = {ion.name for ion in struct.ions}
     inert = tuple((ion, c) for ion, c in mixture.strong_ions() if ion.name not in reactive)
-    zero = totals <= 0.0
+    zero = (totals <= 0.0) & ~struct.supplied
     zero[0] = False
-    totals = np.where(zero, TINY_TOTAL, totals)
+    totals = np.where(totals <= 0.0, TINY_TOTAL, totals)
+    totals[0] = totals[0] if totals[0] != TINY_TOTAL else 0.0
     fixed_p = {g.gas.name: g.pressure_atm for g in mixture.gases}
     pressures = np.array([fixed_p[struct.gases[g].name] for g in struct.fixed], dtype=float)
     return Problem(mixture, struct, totals, zero, q, i_s, inert, pressures, mixture.temperature_c)
@@ -483,6 +486,11 @@ def _structure(key: _Key) -> Structure:
         alk[r] = level - nu_mat[r, 0]
 
     fast = not key.complexes and not (allowed.any() if allowed.size else False) and not fixed
+    supplied = np.zeros(nc, dtype=bool)
+    for g in fixed:
+        supplied |= nu_mat[gas_row[g]] != 0
+    supplied[0] = False
+    supplied.setflags(write=False)
     for arr in (nu_mat, z_arr, sol_a_arr, allowed, alk):
         arr.setflags(write=False)
     sz = np.array(size, dtype=float)
@@ -495,7 +503,7 @@ def _structure(key: _Key) -> Structure:
         sys_rows=tuple(sys_rows), ions=ions, complexes=key.complexes, solids=key.solids, sol_a=sol_a_arr,
         sol_logk=_logk(sol_rows), sol_ksp=_logk(ksp_rows), sol_allowed=allowed, gases=key.gases,
         gas_row=tuple(gas_row), gas_kh=_logk(kh_rows), fixed=tuple(fixed), model=mdl, fast=fast,
-        alk_level=alk)
+        alk_level=alk, supplied=supplied)
 
 
 def _conditional_shift_reaction(item, mdl: ActivityModel, charge, own_size, infos, by_name, sizes) -> float:
