@@ -34,7 +34,7 @@ from __future__ import annotations
 
 import functools
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from typing import NamedTuple
 
 import numpy as np
@@ -151,6 +151,20 @@ class Structure:
     """Components a fixed gas can supply (never "really zero")."""
     alk_level: np.ndarray
     """Per species: acceptors minus donors relative to the pK 4.5 reference level (alkalinity)."""
+    cache: dict = field(default_factory=dict, compare=False, repr=False)
+    """Values derived from the structure alone (log K at a temperature, ...), filled on use."""
+
+    def log_k_at(self, t_c: float) -> np.ndarray:
+        """log10 K of every species at ``t_c`` (I = 0); read-only, cached."""
+        cache = self.cache.setdefault("log_k", {})
+        lk = cache.get(t_c)
+        if lk is None:
+            lk = self.logk.at(t_c)
+            lk.setflags(write=False)
+            if len(cache) > 256:
+                cache.clear()
+            cache[t_c] = lk
+        return lk
 
     @property
     def n_species(self) -> int:
@@ -181,8 +195,8 @@ class Problem:
     temperature_c: float
 
     def log_k(self) -> np.ndarray:
-        """log10 K of every species at the problem's temperature (I = 0)."""
-        return self.structure.logk.at(self.temperature_c)
+        """log10 K of every species at the problem's temperature (I = 0); read-only, cached per temperature."""
+        return self.structure.log_k_at(self.temperature_c)
 
 
 # --------------------------------------------------------------------------
