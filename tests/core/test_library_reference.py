@@ -16,6 +16,7 @@ systems kept in other data files are not covered here.
 from __future__ import annotations
 
 import math
+import re
 import tomllib
 from dataclasses import dataclass
 from importlib import resources
@@ -231,9 +232,23 @@ REFERENCE: dict[str, Ref] = {
 }
 
 
-def systems_in_data_file() -> list[str]:
+def system_entries() -> list[dict]:
     text = resources.files("chem.data").joinpath("systems.toml").read_text(encoding="utf-8")
-    return [s["name"] for s in tomllib.loads(text).get("system", []) if s["name"] not in NOT_HERE]
+    return [s for s in tomllib.loads(text).get("system", []) if s["name"] not in NOT_HERE]
+
+
+def systems_in_data_file() -> list[str]:
+    return [s["name"] for s in system_entries()]
+
+
+@pytest.mark.parametrize("entry", system_entries(), ids=lambda e: e["name"])
+def test_every_source_names_its_works_with_a_year(entry):
+    src = entry["source"]
+    assert re.search(r"\((?:[^()]*, )?(1[89]|20)\d\d\)", src), "no (year) in the source"
+    for m in re.finditer(r"CRC Handbook", src):
+        assert re.search(r"\b(19|20)\d\d\)", src[m.start():m.start() + 90]), "CRC Handbook without a year"
+    for m in re.finditer(r"Critical Stability Constants", src):
+        assert re.search(r"\((19|20)\d\d\) ", src[max(0, m.start() - 16):m.start()]), "compilation without a year"
 
 
 def pka_matches(value: float, published: float) -> bool:
