@@ -214,10 +214,10 @@ REFERENCE: dict[str, Ref] = {
                     "1.86197·ln T (equation as entered in the library, not re-read)", dh=(ROY_2014_BISTRIS[1],)),
     "bis-tris-propane": Ref((6.65, 9.10), f"{GKL}, bis-tris propane (from memory)"),
     # ---- amines
-    "triethanolamine": Ref((7.762,), f"{GKL}, triethanolamine (from memory)", dh=(33.6,)),
+    "triethanolamine": Ref((7.762,), f"{GKL}, triethanolamine (from memory); ΔH: Bates & Allen (1960) J. Res. Natl. "
+                           "Bur. Stand. 64A, 343, 33.450 kJ/mol at 25 °C (read)", dh=(33.450,)),
     "ethanolamine": Ref((9.498,), f"{HARRIS}, 2-aminoethanol; ΔH: {GKL}, ethanolamine (from memory)", dh=(50.52,)),
-    "diethanolamine": Ref((8.883,), f"Bates & Allen (1960) J. Res. Natl. Bur. Stand. 64A, 343 (from memory); "
-                          f"ΔH: {GKL}, diethanolamine (from memory)", dh=(42.08,)),
+    "diethanolamine": Ref((8.883,), f"{GKL}, diethanolamine (from memory)", dh=(42.08,)),
     "methylamine": Ref((10.66,), CRC),
     "dimethylamine": Ref((10.73,), CRC),
     "trimethylamine": Ref((9.80,), CRC),
