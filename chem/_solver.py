@@ -305,13 +305,16 @@ def fast_solve(systems: list, q_strong: float, i_strong: float, kw: float, a: fl
         # start from the ideal answer at that ionic strength: a bracketed solve in x alone
         prepared = bases(ionic)
         g_h, g_oh = water_gammas(ionic)
-        x = _bracketed_x(evaluate, prepared, g_h, g_oh, -7.0, 1e-3)[0]
+        x, _, _, first = _bracketed_x(evaluate, prepared, g_h, g_oh, -7.0, 0.02)
+        if not ideal and math.isfinite(first[2]) and first[2] > 0:
+            ionic = first[2]        # the ionic strength the species at that x make
     else:
         x = min(max(x0, _X_LO), _X_HI)
     i_cap = 2.0 * (i_strong + sum(p[0] * max(p[4]) for p in systems)) + 1.0
     iterations = 0
     converged = False
     last = None
+    dx_prev = di_prev = math.inf
     if not ideal:
         for _ in range(min(30, max_iter)):
             iterations += 1
@@ -335,6 +338,13 @@ def fast_solve(systems: list, q_strong: float, i_strong: float, kw: float, a: fl
             if abs(dx) < 1e-11 and abs(d_i) <= 1e-12 * ionic + 1e-17:
                 converged = True
                 break
+            # quadratic convergence: a step below 1e-7 that shrank a thousandfold leaves an
+            # error of order dx²/dx_prev < 1e-11 (the next step would be below round-off)
+            if (abs(dx) < 1e-7 and abs(dx) < 1e-3 * abs(dx_prev)
+                    and abs(d_i) <= 1e-8 * ionic and abs(d_i) < 1e-3 * abs(di_prev) + 1e-17):
+                converged = True
+                break
+            dx_prev, di_prev = dx, d_i
     if converged:
         # the last Newton step was below 1e-11: the balance there is f − f_x·dx, below round-off
         last = (f - fx * dx, fx, ionic, 0.0, 0.0)

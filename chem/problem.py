@@ -205,8 +205,30 @@ class Problem:
 
 def compile(mixture: Mixture) -> Problem:  # noqa: A001 - the name the formulation uses
     """The tableau of ``mixture``: components, species, constants and totals."""
+    return _problem(mixture, structure_of(mixture))
+
+
+#: Structures by the identity of what defines them (the usual edit changes only amounts).
+_BY_IDENTITY: dict = {}
+
+
+def structure_of(mixture: Mixture) -> Structure:
+    """The :class:`Structure` of ``mixture`` (cached by the identity of its definitions)."""
+    systems = tuple(s for s, _ in mixture.systems())
+    ions = tuple(i for i, _ in mixture.strong_ions())
+    sig = (tuple(map(id, systems)), tuple(map(id, ions)), tuple(map(id, mixture.custom_complexes)),
+           tuple(map(id, mixture.custom_solids)), tuple(map(id, mixture.custom_gases)),
+           tuple(id(g.gas) for g in mixture.gases), mixture.use_library, mixture.precipitate, mixture.activity)
+    hit = _BY_IDENTITY.get(sig)
+    if hit is not None:
+        return hit[1]
     struct = _structure(_key(mixture))
-    return _problem(mixture, struct)
+    if len(_BY_IDENTITY) > 512:
+        _BY_IDENTITY.clear()
+    # the value keeps every object whose id is in the key alive, so ids stay unique while cached
+    _BY_IDENTITY[sig] = ((systems, ions, mixture.custom_complexes, mixture.custom_solids, mixture.custom_gases,
+                          tuple(g.gas for g in mixture.gases)), struct)
+    return struct
 
 
 def component_totals(struct: Structure, ingredients) -> tuple[np.ndarray, float, float]:
