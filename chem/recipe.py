@@ -34,9 +34,9 @@ from dataclasses import dataclass, replace
 from typing import Callable, Iterable, Iterator, Sequence
 
 import numpy as np
-from scipy.optimize import brentq
 
 from ._solver import solve
+from .roots import brent
 from .curves import buffer_capacity_at as buffer_capacity  # one definition of β for the tool
 from .errors import ChemError
 from .library import Library, load_library
@@ -383,8 +383,8 @@ def _solve_plan(req: _Request, plan: _Plan) -> tuple[float, float, Mixture, Equi
         if not eq_hi.pH <= req.target <= eq_lo.pH:
             raise _Unreachable(f"{plan.describe} spans only pH {eq_hi.pH:.3f} to {eq_lo.pH:.3f} "
                                f"at {req.t_c:g} °C")
-        level = brentq(lambda x: at_level(x, extra).pH - req.target, plan.lo, plan.hi,
-                       xtol=_LEVEL_XTOL, rtol=4 * np.finfo(float).eps, maxiter=200)
+        level = brent(lambda x: at_level(x, extra).pH - req.target, plan.lo, plan.hi,
+                      xtol=_LEVEL_XTOL, maxiter=200)
         return level, at_level(level, extra)
 
     if req.ionic_target is None:
@@ -397,8 +397,8 @@ def _solve_plan(req: _Request, plan: _Plan) -> tuple[float, float, Mixture, Equi
             raise RecipeError(f"the buffer alone already has ionic strength {eq0.ionic_strength:.4g} M, "
                               f"above the target {req.ionic_target:.4g} M; lower the total or drop the target")
         s_hi = req.ionic_target / per_unit
-        extra = brentq(lambda s: level_for(s)[1].ionic_strength - req.ionic_target, 0.0, s_hi,
-                       xtol=_SALT_XTOL, rtol=4 * np.finfo(float).eps, maxiter=200)
+        extra = brent(lambda s: level_for(s)[1].ionic_strength - req.ionic_target, 0.0, s_hi,
+                      xtol=_SALT_XTOL, maxiter=200)
         level, eq = level_for(extra)
     if abs(eq.pH - req.target) > _PH_TOL:
         raise RecipeError(f"could not settle the recipe on pH {req.target:g} (reached {eq.pH:.6f})")
