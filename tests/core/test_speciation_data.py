@@ -49,7 +49,7 @@ REFERENCE_LOG_K = [
     ("gas", "CO2", -1.468, PB82),
     ("solid", "strontianite", -9.271, "Busenberg, Plummer & Parker (1984) Geochim. Cosmochim. Acta 48, 2021"),
     ("solid", "witherite", -8.562, "Busenberg & Plummer (1986) Geochim. Cosmochim. Acta 50, 2225"),
-    ("complex", "NaCO3-", 1.27, NORD90),
+    ("complex", "SrCO3", 2.81, "Busenberg, Plummer & Parker (1984) Geochim. Cosmochim. Acta 48, 2021"),
     ("solid", "magnesite", -8.029, NORD90),
     ("solid", "dolomite", -17.09, NORD90),
     ("solid", "siderite", -10.89, NORD90),
