@@ -147,6 +147,8 @@ class Structure:
     model: ActivityModel
     fast: bool
     """Pure acid–base: no complexes, no solids that may form, no fixed gases."""
+    supplied: np.ndarray
+    """Components a fixed gas can supply (never "really zero")."""
     alk_level: np.ndarray
     """Per species: acceptors minus donors relative to the pK 4.5 reference level (alkalinity)."""
 
@@ -193,25 +195,42 @@ def compile(mixture: Mixture) -> Problem:  # noqa: A001 - the name the formulati
     return _problem(mixture, struct)
 
 
-def _problem(mixture: Mixture, struct: Structure) -> Problem:
+def component_totals(struct: Structure, ingredients) -> tuple[np.ndarray, float, float]:
+    """Component totals (H+ first; zeros kept) of ``ingredients`` in ``struct``'s layout,
+    with the net charge and ionic strength of the inert strong ions."""
     nc = struct.n_components
     totals = np.zeros(nc)
-    totals[0] = mixture.proton_total()
-    sys_tot = {s.name: c for s, c in mixture.systems()}
-    for k, sys_ in enumerate(struct.systems):
-        totals[struct.sys_comp[k]] = sys_tot.get(sys_.name, 0.0)
-    strong = mixture.strong_ions()
-    reactive = {ion.name for ion in struct.ions}
+    col = {s.name: struct.sys_comp[k] for k, s in enumerate(struct.systems)}
     base = 1 + len(struct.systems)
-    ion_tot = {ion.name: c for ion, c in strong}
-    for k, ion in enumerate(struct.ions):
-        totals[base + k] = ion_tot.get(ion.name, 0.0)
-    inert = tuple((ion, c) for ion, c in strong if ion.name not in reactive)
-    q = math.fsum(ion.charge * c for ion, c in inert)
-    i_s = 0.5 * math.fsum(ion.charge * ion.charge * c for ion, c in inert)
-    zero = totals <= 0.0
+    ion_col = {ion.name: base + k for k, ion in enumerate(struct.ions)}
+    h = []
+    q = []
+    i_s = []
+    for ing in ingredients:
+        h.append(ing.conc * ing.reagent.proton_count)
+        for sys_, n in ing.reagent.systems:
+            totals[col[sys_.name]] += ing.conc * n
+        for ion, n in ing.reagent.counter_ions:
+            if ion.name in ("H+", "OH-"):
+                continue
+            k = ion_col.get(ion.name)
+            if k is not None:
+                totals[k] += ing.conc * n
+            else:
+                q.append(ion.charge * ing.conc * n)
+                i_s.append(0.5 * ion.charge * ion.charge * ing.conc * n)
+    totals[0] = math.fsum(h)
+    return totals, math.fsum(q), math.fsum(i_s)
+
+
+def _problem(mixture: Mixture, struct: Structure) -> Problem:
+    totals, q, i_s = component_totals(struct, mixture.ingredients)
+    reactive = {ion.name for ion in struct.ions}
+    inert = tuple((ion, c) for ion, c in mixture.strong_ions() if ion.name not in reactive)
+    zero = (totals <= 0.0) & ~struct.supplied
     zero[0] = False
-    totals = np.where(zero, TINY_TOTAL, totals)
+    totals = np.where(totals <= 0.0, TINY_TOTAL, totals)
+    totals[0] = totals[0] if totals[0] != TINY_TOTAL else 0.0
     fixed_p = {g.gas.name: g.pressure_atm for g in mixture.gases}
     pressures = np.array([fixed_p[struct.gases[g].name] for g in struct.fixed], dtype=float)
     return Problem(mixture, struct, totals, zero, q, i_s, inert, pressures, mixture.temperature_c)
@@ -467,6 +486,11 @@ def _structure(key: _Key) -> Structure:
         alk[r] = level - nu_mat[r, 0]
 
     fast = not key.complexes and not (allowed.any() if allowed.size else False) and not fixed
+    supplied = np.zeros(nc, dtype=bool)
+    for g in fixed:
+        supplied |= nu_mat[gas_row[g]] != 0
+    supplied[0] = False
+    supplied.setflags(write=False)
     for arr in (nu_mat, z_arr, sol_a_arr, allowed, alk):
         arr.setflags(write=False)
     sz = np.array(size, dtype=float)
@@ -479,7 +503,7 @@ def _structure(key: _Key) -> Structure:
         sys_rows=tuple(sys_rows), ions=ions, complexes=key.complexes, solids=key.solids, sol_a=sol_a_arr,
         sol_logk=_logk(sol_rows), sol_ksp=_logk(ksp_rows), sol_allowed=allowed, gases=key.gases,
         gas_row=tuple(gas_row), gas_kh=_logk(kh_rows), fixed=tuple(fixed), model=mdl, fast=fast,
-        alk_level=alk)
+        alk_level=alk, supplied=supplied)
 
 
 def _conditional_shift_reaction(item, mdl: ActivityModel, charge, own_size, infos, by_name, sizes) -> float:
@@ -510,4 +534,4 @@ def _charge_of_info(info: SpeciesInfo) -> int:
     return 1 if info.name == "H+" else -1
 
 
-__all__ = ["Problem", "SpeciesInfo", "Structure", "compile", "SIZE_H", "SIZE_OH", "TINY_TOTAL", "WATER_IONS"]
+__all__ = ["Problem", "SpeciesInfo", "Structure", "compile", "component_totals", "SIZE_H", "SIZE_OH", "TINY_TOTAL", "WATER_IONS"]
