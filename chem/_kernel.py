@@ -310,8 +310,8 @@ def _iterate(inp: Inputs, idx: np.ndarray, u: np.ndarray, ionic: np.ndarray, act
         done = (step < STEP_TOL) & (alpha == 1.0) & (di <= 2e-14 * np.maximum(ionic[work], 1e-300) + 1e-18)
         # at the working set's optimum: release an active solid with a negative amount
         if nq:
-            neg = done & np.any(aw & (ls < -1e-14 * np.maximum(np.abs(inp.totals[w]).max(axis=1), 1e-300)),
-                                axis=1)
+            floor = -1e-14 * np.maximum(np.abs(inp.totals[w]).max(axis=1), 1e-300)
+            neg = done & np.any(aw & (ls < floor[:, None]), axis=1)
             if neg.any():
                 rows = np.nonzero(neg)[0]
                 worst = np.argmin(np.where(aw[rows], ls[rows], np.inf), axis=1)
