@@ -67,6 +67,13 @@ def differences(spec: Spec, ref: Result, got: dict, *, full: bool) -> list[str]:
         want_system = {"water": "water", "strong": "strong", "complex": "complex"}.get(r.kind, r.system)
         if s.get("system") != want_system:
             out.append(f"{name}: system {s.get('system')!r} != {want_system!r}")
+        if r.kind in ("system", "complex") and s.get("protons") != r.protons:
+            out.append(f"{name}: protons {s.get('protons')!r} != {r.protons!r}")
+        if full and r.kind == "complex":
+            if s.get("systems") != r.units:
+                out.append(f"{name}: systems {s.get('systems')!r} != {r.units!r}")
+            if s.get("fraction", 0.0) is not None:
+                out.append(f"{name}: fraction {s.get('fraction')!r} should be null for a complex")
         if r.kind == "system":
             frac = r.conc / ref.systems[r.system].total
             if not _close(s.get("fraction"), frac, CONC_REL, 1e-30):
@@ -174,6 +181,11 @@ def balance_errors(spec: Spec, got: dict, *, full: bool) -> list[str]:
             dissolved = math.fsum([free, *bound])
             if abs(system.get("dissolved_M", math.nan) - dissolved) > BALANCE_REL * dissolved + 1e-300:
                 out.append(f"system {name}: dissolved_M {system.get('dissolved_M')!r} != {dissolved!r}")
+            shares = [d.get("fraction") for d in system.get("distribution", [])]
+            if total > 0 and (None in shares or abs(math.fsum(shares) - 1.0) > BALANCE_REL):
+                out.append(f"system {name}: distribution shares {shares!r} do not add up to 1")
+            elif shares != sorted(shares, reverse=True):
+                out.append(f"system {name}: distribution is not largest first")
     if full:
         for s in got.get("solids", []):
             if s["amount_M"] < 0:

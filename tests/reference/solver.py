@@ -89,6 +89,10 @@ class RSpecies:
     charge: int
     conc: mp.mpf
     gamma: mp.mpf
+    protons: int | None
+    """Dissociable protons still bound (system species); None for complexes."""
+    units: dict[str, int] | None
+    """Units of each system a complex holds; None for other species."""
 
 
 @dataclass(frozen=True)
@@ -146,6 +150,8 @@ class _Sp:
     nu: dict[int, int]
     lnk: mp.mpf
     size: mp.mpf
+    protons: int | None = 0
+    units: dict[str, int] | None = None
 
 
 def _ln_k(log_k25, dh_kj, dcp_j, T):
@@ -233,7 +239,7 @@ class _Problem:
                 if n - k:
                     nu[0] = n - k
                 self.species.append(_Sp(sp_name, "system", s.name, s.charge(k), nu,
-                                        -mp.fsum(ln_ka[k:]), size))
+                                        -mp.fsum(ln_ka[k:]), size, protons=n - k))
         for ion, total in ion_total.items():
             if total == 0:
                 continue
@@ -256,7 +262,6 @@ class _Problem:
                 z += k * sp.charge
             return nu, lnk, z
 
-        self.complex_units: dict[str, dict[str, int]] = {}
         comp_system = {j: name for name, j in self.system_comp.items()}
         for c in spec.complexes:
             got = expand(c.reaction)
@@ -264,8 +269,9 @@ class _Problem:
                 continue
             nu, lnk, z = got
             size = mp.mpf(c.ion_size if c.ion_size is not None else DEFAULT_SIZE)
-            self.species.append(_Sp(c.name, "complex", None, z, nu, lnk + _ln_k(c.log_k, c.dh_kj, None, T), size))
-            self.complex_units[c.name] = {comp_system[j]: v for j, v in nu.items() if j in comp_system}
+            units = {comp_system[j]: v for j, v in nu.items() if j in comp_system}
+            self.species.append(_Sp(c.name, "complex", None, z, nu, lnk + _ln_k(c.log_k, c.dh_kj, None, T), size,
+                                    protons=None, units=units))
         by_name = {sp.name: sp for sp in self.species}
 
         # Solids: w·u = ln Ksp(T) − Σ k ln K_species at saturation
@@ -611,7 +617,7 @@ class _Solver:
         u, c, grad, lam, amounts, lng = state
         ln10 = mp.log(10)
         n_gas = sum(1 for g in p.gases if g[3] is not None)
-        species = {sp.name: RSpecies(sp.name, sp.kind, sp.system, sp.charge, cs, mp.exp(g))
+        species = {sp.name: RSpecies(sp.name, sp.kind, sp.system, sp.charge, cs, mp.exp(g), sp.protons, sp.units)
                    for sp, cs, g in zip(p.species, c, lng)}
         # uptake from each fixed gas: grad = uptake · ν_gas, so uptake = −λ_gas
         uptake_by_comp = [mp.mpf(0)] * self.n
@@ -634,8 +640,8 @@ class _Solver:
             amount = amounts.get(i, mp.mpf(0))
             for j, v in w.items():
                 precip_by_comp[j] += v * amount
-            caps = [p.totals[j] + uptake_by_comp[j] for j, v in w.items() if j != 0 and v > 0]
-            capacity = min((t / w[j] for t, j in zip(caps, [j for j, v in w.items() if j != 0 and v > 0])),
+            # the largest amount the totals allow: the scarcest system or strong ion it holds
+            capacity = min(((p.totals[j] + uptake_by_comp[j]) / v for j, v in w.items() if j != 0 and v > 0),
                            default=mp.mpf(0))
             solids[name] = RSolid(name, self.si(u, i), ln_ksp / ln10, amount, ok, capacity)
         # balances: dissolved + precipitated = total + uptake, for every component
