@@ -14,6 +14,7 @@ ranges; the values themselves are invented):
 
 from __future__ import annotations
 
+import math
 import re
 from math import gcd
 
@@ -21,7 +22,7 @@ from hypothesis import strategies as st
 
 from .spec import STRONG_REAGENTS, Complex, FixedGas, Gas, Solid, Spec, System
 
-MODELS = ("ideal", "davies", "extended-dh")
+MODELS = ("davies", "extended-dh", "ideal")
 
 
 def charge_suffix(z: int) -> str:
@@ -123,6 +124,18 @@ def _within_ionic_strength(ingredients, systems: dict[str, System], limit: float
     return [(n, float(f"{c * limit / nominal:.6g}")) for n, c in ingredients]
 
 
+def _totals(ingredients, systems: dict[str, System]) -> dict[str, float]:
+    """Total of every system and strong ion as added, mol/L."""
+    out: dict[str, float] = {}
+    for name, conc in ingredients:
+        ions = systems[name].counter_ions if name in systems else STRONG_REAGENTS[name]
+        if name in systems:
+            out[name] = out.get(name, 0.0) + conc
+        for ion, n in ions:
+            out[ion] = out.get(ion, 0.0) + conc * n
+    return out
+
+
 @st.composite
 def specs(draw, *, full: bool = True) -> Spec:
     """A random mixture.  ``full=False`` gives acid–base only (DESIGN §4 keys only)."""
@@ -191,7 +204,7 @@ def specs(draw, *, full: bool = True) -> Spec:
             if len(solids) >= 5:
                 break
             zm, mb, msp = m.charge_fp, _base(m), m.species[0]
-            kind = draw(st.sampled_from(["none", "hydroxide", "hydroxide-h", "salt", "salt"]))
+            kind = draw(st.sampled_from(["salt", "hydroxide", "salt", "hydroxide-h", "none"]))
             if kind.startswith("hydroxide") and zm > 1:
                 lksp = _u(draw, -20.0, -11.0) if zm == 2 else _u(draw, -39.0, -33.0)
                 name = f"{mb}(OH){zm}(s)"
@@ -211,12 +224,17 @@ def specs(draw, *, full: bool = True) -> Spec:
                     a, b, ansp, ab = za // g, zm // g, lg.species[k], _bare(lg.species[k])
                 else:
                     continue
-                per_ion = _u(draw, 1.5, 4.5) if use_cl else _u(draw, 2.0, 6.0)
+                if draw(st.booleans()):     # about as soluble as the amounts in the flask
+                    amounts = _totals(ingredients, {x.name: x for x in metals + ligands})
+                    anion_total = amounts["Cl-"] if use_cl else amounts[lg.name]
+                    log_iap = a * math.log10(amounts[m.name]) + b * math.log10(anion_total)
+                    log_k = round(min(-1.0, max(-45.0, log_iap - _u(draw, -1.0, 4.0))), 4)
+                else:
+                    log_k = round(-(a + b) * (_u(draw, 1.5, 4.5) if use_cl else _u(draw, 2.0, 6.0)), 4)
                 name = f"{_group(mb, a)}{_group(ab, b)}(s)"
-                add(solids, Solid(name, ((msp, a), (ansp, b)), round(-per_ion * (a + b), 4),
-                                  _optional(draw, -30.0, 60.0)))
+                add(solids, Solid(name, ((msp, a), (ansp, b)), log_k, _optional(draw, -30.0, 60.0)))
         if solids:
-            mode = draw(st.sampled_from(["false", "true", "list"]))
+            mode = draw(st.sampled_from(["true", "list", "false"]))
             if mode == "list":
                 precipitate = tuple(draw(st.lists(st.sampled_from([s.name for s in solids]), unique=True)))
             else:
