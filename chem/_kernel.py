@@ -241,6 +241,10 @@ def _iterate(inp: Inputs, idx: np.ndarray, u: np.ndarray, ionic: np.ndarray, act
     work = np.arange(p)                     # positions still iterating
     its = 0
     fixed_i = inp.fixed_ionic
+    # damping of the ionic-strength update: halved each time the update changes sign
+    omega = np.ones(p)
+    last_di = np.zeros(p)
+    gave_up = np.zeros(p, dtype=bool)
     for its in range(1, max_iter + 1):
         w = idx[work]
         uw, iw, aw = u[work], ionic[work], active[work]
@@ -285,8 +289,15 @@ def _iterate(inp: Inputs, idx: np.ndarray, u: np.ndarray, ionic: np.ndarray, act
             if fixed_i is not None:
                 i_new = fixed_i[w]
             i_new = np.where(np.isfinite(i_new), i_new, iw)
-            di = np.abs(i_new - iw)
-            ionic[work] = i_new
+            delta = i_new - iw
+            flip = delta * last_di[work] < 0
+            om = np.where(flip, 0.5 * omega[work], np.minimum(1.0, omega[work] * 1.25))
+            omega[work] = om
+            last_di[work] = delta
+            i_next = iw + om * delta
+            di = np.abs(delta)
+            ionic[work] = i_next
+            gave_up[work] = om < 1.0 / 256
         else:
             di = np.zeros(work.size)
         step = alpha * big
@@ -302,7 +313,7 @@ def _iterate(inp: Inputs, idx: np.ndarray, u: np.ndarray, ionic: np.ndarray, act
                 done &= ~neg
         active[work] = aw
         converged[work[done]] = True
-        work = work[~done]
+        work = work[~done & ~gave_up[work]]
         if work.size == 0:
             break
     return u, ionic, active, lam_e, lam_s, converged, its
@@ -322,14 +333,14 @@ def solve(inp: Inputs, u0: np.ndarray, i0: np.ndarray, *, max_iter: int = 200,
     u = _make_feasible(inp, idx, u)
     freeze = inp.fixed_ionic is not None
     with np.errstate(over="ignore", under="ignore", invalid="ignore", divide="ignore"):
-        budget = min(max_iter, 80)
+        budget = min(max_iter, 60)
         u, ionic, active, lam_e, lam_s, conv, its = _iterate(inp, idx, u, ionic, active,
                                                               freeze_ionic=freeze, max_iter=budget)
         iterations = its
         rest = np.nonzero(~conv)[0]
         if rest.size and not freeze and not inp.model.ideal and max_iter > budget:
             u_r, i_r, a_r, le_r, ls_r, c_r, its2 = _nested(inp, rest, u[rest], ionic[rest], active[rest],
-                                                             max_iter - budget)
+                                                             20 * max_iter)
             u[rest], ionic[rest], active[rest] = u_r, i_r, a_r
             lam_e[rest], lam_s[rest] = le_r, ls_r
             conv[rest] = c_r
@@ -378,9 +389,22 @@ def _nested(inp: Inputs, idx, u, ionic, active, budget: int):
 
 
 def _ionic_cap(inp: Inputs, idx) -> np.ndarray:
-    """No ionic strength can exceed this: every component at its largest charge, plus water's ions."""
-    zmax = np.abs(inp.nu).T @ inp.z2          # generous: (nc,)
-    return 2.0 * (inp.inert_i[idx] + np.abs(inp.totals[idx]) @ zmax) + 1.0
+    """No ionic strength can exceed this.
+
+    Each species (other than H+ and OH-) holds at most T_j/ν_sj of any
+    component j in it; H+ and OH- are bounded by the proton total and the
+    strong base, both within |T_H| plus the other totals' protons.
+    """
+    nu = inp.nu
+    tot = np.abs(inp.totals[idx])                                  # (P, nc)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        lim = np.where(nu[None, :, 1:] > 0, tot[:, None, 1:] / np.where(nu[:, 1:] > 0, nu[:, 1:], 1.0)[None],
+                       np.inf).min(axis=2)                          # (P, ns)
+    lim = np.where(np.isfinite(lim), lim, 0.0)
+    lim[:, :2] = 0.0
+    hmax = float(np.abs(nu[:, 0]).max(initial=1.0))
+    water = tot[:, 0] + hmax * tot[:, 1:].sum(axis=1) + 1.0          # H+ and OH- (1 M covers pure water)
+    return 1.1 * (inp.inert_i[idx] + 0.5 * lim @ inp.z2 + water) + 1e-6
 
 
 def _make_feasible(inp: Inputs, idx, u: np.ndarray) -> np.ndarray:
@@ -597,3 +621,94 @@ def _acid_base_x(inp: Inputs, lay: Layout, lng: np.ndarray, h_fixed) -> np.ndarr
             break
         x = x_new
     return x
+
+
+# --------------------------------------------------------------------------
+# derivatives at the solution (implicit-function theorem)
+# --------------------------------------------------------------------------
+
+def jacobian(inp: Inputs, res: Result, idx=None) -> np.ndarray:
+    """The Jacobian of the solved equations at the solution, (P, n, n).
+
+    Unknowns, in order: u (nc), I, the equality multipliers (ne), the solid
+    amounts (nq; an identity row keeps an absent solid at 0).  Equations:
+    mass balances Σν c + Eᵀλ + A_Wᵀn − T, the ionic-strength equation, the
+    equalities E u − e and the present solids' A_p u − b_p.
+    """
+    if idx is None:
+        idx = np.arange(inp.points)
+    nu = inp.nu
+    nc = nu.shape[1]
+    ne = inp.eq_rows.shape[0]
+    nq = inp.sol_a.shape[0]
+    p = idx.size
+    n = nc + 1 + ne + nq
+    c = res.conc[idx]
+    jac = np.zeros((p, n, n))
+    jac[:, :nc, :nc] = np.matmul(nu.T, c[:, :, None] * nu[None, :, :])
+    frozen = inp.model.ideal or inp.fixed_ionic is not None
+    if frozen:
+        jac[:, nc, nc] = -1.0
+    else:
+        dlng = d_ln_gamma(inp, idx, res.ionic[idx])
+        jac[:, :nc, nc] = (c * -dlng) @ nu
+        jac[:, nc, :nc] = 0.5 * (c * inp.z2) @ nu
+        jac[:, nc, nc] = 0.5 * np.einsum("ps,s,ps->p", c, inp.z2, -dlng) - 1.0
+    if ne:
+        jac[:, :nc, nc + 1:nc + 1 + ne] = inp.eq_rows.T
+        jac[:, nc + 1:nc + 1 + ne, :nc] = inp.eq_rows
+        if inp.counter_row is not None and not frozen:
+            mu = res.eq_mult[idx, inp.counter_row]
+            jac[:, nc, nc + 1 + inp.counter_row] = np.where(mu >= 0, 0.5, -0.5)   # base side at the own pH
+    if nq:
+        present = res.amounts[idx] > 0
+        cols = nc + 1 + ne + np.arange(nq)
+        jac[:, :nc, cols] = np.transpose(inp.sol_a[None] * present[:, :, None], (0, 2, 1))
+        jac[:, cols, :nc] = inp.sol_a[None] * present[:, :, None]
+        jac[:, cols, cols] = np.where(present, 0.0, 1.0)
+    return jac
+
+
+def linear_solve(jac: np.ndarray, rhs: np.ndarray, nc: int) -> np.ndarray:
+    """Solve J y = rhs (P, n[, k]) with the component block scaled by its diagonal."""
+    n = jac.shape[1]
+    s = np.ones((jac.shape[0], n))
+    d = np.abs(np.einsum("pjj->pj", jac[:, :nc, :nc]))
+    s[:, :nc] = 1.0 / np.sqrt(np.maximum(d, 1e-300))
+    js = jac * s[:, :, None] * s[:, None, :]
+    vec = rhs.ndim == 2
+    r = (rhs if not vec else rhs[:, :, None]) * s[:, :, None]
+    try:
+        y = np.linalg.solve(js, r)
+    except np.linalg.LinAlgError:
+        y = np.stack([np.linalg.lstsq(js[i], r[i], rcond=None)[0] for i in range(js.shape[0])])
+    y = y * s[:, :, None]
+    return y[:, :, 0] if vec else y
+
+
+def sensitivity(inp: Inputs, res: Result, d_totals: np.ndarray | None = None, d_inert_i=None,
+                d_eq_rhs: np.ndarray | None = None, d_lnk: np.ndarray | None = None) -> np.ndarray:
+    """d(u, I, λ_e, n_solids)/dp for one parameter p at every point, (P, n).
+
+    ``d_totals`` (P, nc): change of the component totals; ``d_inert_i`` (P,):
+    of the inert ionic strength; ``d_eq_rhs`` (P, ne): of the equalities'
+    right-hand sides; ``d_lnk`` (P, ns): of the species' ln K.
+    """
+    p = inp.points
+    nc = inp.nu.shape[1]
+    ne = inp.eq_rows.shape[0]
+    jac = jacobian(inp, res)
+    n = jac.shape[1]
+    rhs = np.zeros((p, n))
+    if d_totals is not None:
+        rhs[:, :nc] += d_totals
+    if d_inert_i is not None and not (inp.model.ideal or inp.fixed_ionic is not None):
+        rhs[:, nc] -= d_inert_i
+    if d_eq_rhs is not None and ne:
+        rhs[:, nc + 1:nc + 1 + ne] += d_eq_rhs
+    if d_lnk is not None:
+        c = res.conc
+        rhs[:, :nc] -= (c * d_lnk) @ inp.nu
+        if not (inp.model.ideal or inp.fixed_ionic is not None):
+            rhs[:, nc] -= 0.5 * (c * d_lnk) @ inp.z2
+    return linear_solve(jac, rhs, nc)

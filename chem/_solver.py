@@ -546,10 +546,10 @@ def assemble(prob: Problem, state: _State) -> Equilibrium:
     for ion, total in mixture.strong_ions():
         r = ion_rows.get(ion.name)
         if r is not None:
-            species.append(Species(ion.name, "strong", None, ion.charge, float(c[r]), float(gamma[r]), None))
+            species.append(Species(ion.name, "strong", 0, ion.charge, float(c[r]), float(gamma[r]), None))
         else:
             lg = 0.0 if mdl.ideal else -a * ion.charge ** 2 * mdl.d1(state.ionic, b, ion.ion_size_a)
-            species.append(Species(ion.name, "strong", None, ion.charge, float(total), 10.0 ** lg, None))
+            species.append(Species(ion.name, "strong", 0, ion.charge, float(total), 10.0 ** lg, None))
 
     # systems: totals, dissolved, free, distribution (species and solids)
     amounts = state.amounts
@@ -634,87 +634,26 @@ def assemble(prob: Problem, state: _State) -> Equilibrium:
 # derivatives at the solution (implicit-function theorem)
 # --------------------------------------------------------------------------
 
-def _linear_system(prob: Problem, state: _State, inp: K.Inputs):
-    """The Jacobian of (mass balances, ionic-strength equation, active constraints) at the solution.
+def derivatives(eq: Equilibrium, d_totals=None, d_inert_i: float = 0.0, d_lnk=None) -> np.ndarray:
+    """Change of (u, I) per unit change of one parameter, at the solution of ``eq``.
 
-    Unknowns: u (nc), I, the equality multipliers (ne) and the active
-    solids' amounts.  Returns (J, active solid indices).
-    """
-    st = prob.structure
-    nc = st.n_components
-    c = state.conc
-    nu = st.nu
-    idx = np.zeros(1, dtype=int)
-    dlng = K.d_ln_gamma(inp, idx, np.array([state.ionic]))[0]
-    ne = inp.eq_rows.shape[0]
-    act = np.nonzero(state.amounts > 0)[0] if state.amounts.size else np.zeros(0, dtype=int)
-    na = act.size
-    n = nc + 1 + ne + na
-    jac = np.zeros((n, n))
-    jac[:nc, :nc] = nu.T @ (c[:, None] * nu)
-    jac[:nc, nc] = nu.T @ (c * -dlng)
-    jac[nc, :nc] = 0.5 * (st.z2 * c) @ nu
-    jac[nc, nc] = 0.5 * (st.z2 * c) @ -dlng - 1.0
-    if st.model.ideal:
-        jac[nc, :] = 0.0
-        jac[nc, nc] = -1.0
-        jac[:nc, nc] = 0.0
-    if ne:
-        jac[:nc, nc + 1:nc + 1 + ne] = inp.eq_rows.T
-        jac[nc + 1:nc + 1 + ne, :nc] = inp.eq_rows
-        if inp.counter_row is not None:
-            mu = state.eq_mult[inp.counter_row]
-            jac[nc, nc + 1 + inp.counter_row] = 0.5 * math.copysign(1.0, mu) if mu != 0 else 0.0
-    if na:
-        jac[:nc, nc + 1 + ne:] = st.sol_a[act].T
-        jac[nc + 1 + ne:, :nc] = st.sol_a[act]
-    return jac, act
-
-
-def _solve_scaled(jac: np.ndarray, rhs: np.ndarray, nc: int) -> np.ndarray:
-    """Solve J x = rhs with the component block scaled by its diagonal."""
-    n = jac.shape[0]
-    s = np.ones(n)
-    d = np.abs(np.diag(jac)[:nc])
-    s[:nc] = 1.0 / np.sqrt(np.maximum(d, 1e-300))
-    js = jac * s[:, None] * s[None, :]
-    try:
-        y = np.linalg.solve(js, rhs * s[:, None] if rhs.ndim == 2 else rhs * s)
-    except np.linalg.LinAlgError:
-        y = np.linalg.lstsq(js, rhs * s[:, None] if rhs.ndim == 2 else rhs * s, rcond=None)[0]
-    return y * (s[:, None] if rhs.ndim == 2 else s)
-
-
-def derivatives(eq: Equilibrium, d_totals: np.ndarray, d_inert_i: np.ndarray | float = 0.0,
-                d_lnk: np.ndarray | None = None) -> np.ndarray:
-    """Change of u (ln free activities) and I per unit change of the given parameters.
-
-    ``d_totals`` is (nc,) or (nc, k) — the change of each component total per
-    unit of k parameters; ``d_inert_i`` the change of the inert ionic
-    strength; ``d_lnk`` (ns, k) the change of each species' ln K.  Returns
-    (nc + 1, k): du then dI.  Exact for the model (activity corrections,
-    active solids and fixed gases included).
+    ``d_totals`` (nc,): change of each component total; ``d_inert_i``: of
+    the inert ionic strength; ``d_lnk`` (ns,): of each species' ln K.
+    Returns (nc + 1,): du (ln free activities) then dI.  Exact for the model
+    (activity corrections, present solids and fixed gases included).
     """
     prob: Problem = eq._problem  # type: ignore[attr-defined]
     state: _State = eq._state    # type: ignore[attr-defined]
     st = prob.structure
     inp = kernel_inputs(prob)
-    jac, act = _linear_system(prob, state, inp)
-    nc = st.n_components
-    d_t = np.asarray(d_totals, dtype=float)
-    one = d_t.ndim == 1
-    d_t = d_t.reshape(nc, -1)
-    k = d_t.shape[1]
-    rhs = np.zeros((jac.shape[0], k))
-    rhs[:nc] = d_t
-    rhs[nc] = -np.broadcast_to(np.asarray(d_inert_i, dtype=float), (k,))
-    if d_lnk is not None:
-        dl = np.asarray(d_lnk, dtype=float).reshape(st.n_species, -1)
-        rhs[:nc] -= st.nu.T @ (state.conc[:, None] * dl)
-        rhs[nc] -= 0.5 * (st.z2 * state.conc) @ dl
-    y = _solve_scaled(jac, rhs, nc)
-    out = y[:nc + 1]
-    return out[:, 0] if one else out
+    res = K.Result(u=state.u[None], ionic=np.array([state.ionic]), lng=state.lng[None], conc=state.conc[None],
+                   amounts=state.amounts[None] if state.amounts.size else np.zeros((1, len(st.solids))),
+                   eq_mult=state.eq_mult[None] if state.eq_mult.size else np.zeros((1, inp.eq_rows.shape[0])),
+                   converged=np.array([state.converged]), residual=np.array([state.residual]), iterations=0)
+    dt = None if d_totals is None else np.asarray(d_totals, dtype=float)[None]
+    dl = None if d_lnk is None else np.asarray(d_lnk, dtype=float)[None]
+    y = K.sensitivity(inp, res, dt, np.array([d_inert_i]), None, dl)[0]
+    return y[:st.n_components + 1]
 
 
 def buffer_capacity_at(source: Equilibrium | Mixture) -> float:

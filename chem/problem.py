@@ -193,22 +193,38 @@ def compile(mixture: Mixture) -> Problem:  # noqa: A001 - the name the formulati
     return _problem(mixture, struct)
 
 
-def _problem(mixture: Mixture, struct: Structure) -> Problem:
+def component_totals(struct: Structure, ingredients) -> tuple[np.ndarray, float, float]:
+    """Component totals (H+ first; zeros kept) of ``ingredients`` in ``struct``'s layout,
+    with the net charge and ionic strength of the inert strong ions."""
     nc = struct.n_components
     totals = np.zeros(nc)
-    totals[0] = mixture.proton_total()
-    sys_tot = {s.name: c for s, c in mixture.systems()}
-    for k, sys_ in enumerate(struct.systems):
-        totals[struct.sys_comp[k]] = sys_tot.get(sys_.name, 0.0)
-    strong = mixture.strong_ions()
-    reactive = {ion.name for ion in struct.ions}
+    col = {s.name: struct.sys_comp[k] for k, s in enumerate(struct.systems)}
     base = 1 + len(struct.systems)
-    ion_tot = {ion.name: c for ion, c in strong}
-    for k, ion in enumerate(struct.ions):
-        totals[base + k] = ion_tot.get(ion.name, 0.0)
-    inert = tuple((ion, c) for ion, c in strong if ion.name not in reactive)
-    q = math.fsum(ion.charge * c for ion, c in inert)
-    i_s = 0.5 * math.fsum(ion.charge * ion.charge * c for ion, c in inert)
+    ion_col = {ion.name: base + k for k, ion in enumerate(struct.ions)}
+    h = []
+    q = []
+    i_s = []
+    for ing in ingredients:
+        h.append(ing.conc * ing.reagent.proton_count)
+        for sys_, n in ing.reagent.systems:
+            totals[col[sys_.name]] += ing.conc * n
+        for ion, n in ing.reagent.counter_ions:
+            if ion.name in ("H+", "OH-"):
+                continue
+            k = ion_col.get(ion.name)
+            if k is not None:
+                totals[k] += ing.conc * n
+            else:
+                q.append(ion.charge * ing.conc * n)
+                i_s.append(0.5 * ion.charge * ion.charge * ing.conc * n)
+    totals[0] = math.fsum(h)
+    return totals, math.fsum(q), math.fsum(i_s)
+
+
+def _problem(mixture: Mixture, struct: Structure) -> Problem:
+    totals, q, i_s = component_totals(struct, mixture.ingredients)
+    reactive = {ion.name for ion in struct.ions}
+    inert = tuple((ion, c) for ion, c in mixture.strong_ions() if ion.name not in reactive)
     zero = totals <= 0.0
     zero[0] = False
     totals = np.where(zero, TINY_TOTAL, totals)
@@ -510,4 +526,4 @@ def _charge_of_info(info: SpeciesInfo) -> int:
     return 1 if info.name == "H+" else -1
 
 
-__all__ = ["Problem", "SpeciesInfo", "Structure", "compile", "SIZE_H", "SIZE_OH", "TINY_TOTAL", "WATER_IONS"]
+__all__ = ["Problem", "SpeciesInfo", "Structure", "compile", "component_totals", "SIZE_H", "SIZE_OH", "TINY_TOTAL", "WATER_IONS"]

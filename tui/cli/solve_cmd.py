@@ -55,7 +55,7 @@ def render_table(eq) -> str:
                    f"{s.activity_coefficient:6.3f} {frac:>8}")
     if eq.systems:
         out.append("")
-        out.append("totals: " + ", ".join(f"{n} {format_molar(c)}" for n, c in eq.systems))
+        out.append("totals: " + ", ".join(f"{st.name} {format_molar(st.total)}" for st in eq.systems))
     out += notice_lines(eq)
     out.append("")
     out.append("Model estimate: check against measurement; defer to safety data sheets, local codes and licensed practice.")
