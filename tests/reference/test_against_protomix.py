@@ -13,6 +13,8 @@ from __future__ import annotations
 import pytest
 from hypothesis import HealthCheck, given, settings
 
+from chem import load_library
+
 from .compare import balance_errors, differences, protomix_json
 from .solver import solve
 from .spec import Complex, FixedGas, Gas, Solid, Spec, System, to_toml
@@ -63,15 +65,16 @@ def anion(name, z, cation="Na+"):
 # Carbonate at 25 °C from the expressions of Plummer & Busenberg (1982), Geochim. Cosmochim.
 # Acta 46, 1011, abstract, evaluated at 298.15 K: log K_H(CO2) = −1.468, pKa1 = 6.352,
 # pKa2 = 10.329; calcite log Ksp = −8.480; CaHCO3+ log K = 1.11; CaCO3° log K = 3.22.
-BICARBONATE = System("sodium bicarbonate (test)", ("H2CO3", "HCO3-", "CO3^2-"), (6.352, 10.329), 0, 1,
-                     (("Na+", 1),))
-CO2 = Gas("CO2(g)", "H2CO3", -1.468)
-CALCIUM = System("calcium chloride (test)", ("Ca^2+",), (), 2, 0, (("Cl-", 2),))
+# Species names carry "(test)" so that they never stand for the library's own carbonate and calcium.
+BICARBONATE = System("sodium bicarbonate (test)", ("H2CO3(test)", "HCO3(test)-", "CO3(test)^2-"), (6.352, 10.329),
+                     0, 1, (("Na+", 1),))
+CO2 = Gas("CO2 (test gas)", "H2CO3(test)", -1.468)
+CALCIUM = System("calcium chloride (test)", ("Ca(test)^2+",), (), 2, 0, (("Cl-", 2),))
 CALCIUM_CARBONATE = (
-    Complex("CaHCO3+", (("Ca^2+", 1), ("HCO3-", 1)), 1.11),
-    Complex("CaCO3", (("Ca^2+", 1), ("CO3^2-", 1)), 3.22),
+    Complex("CaHCO3(test)+", (("Ca(test)^2+", 1), ("HCO3(test)-", 1)), 1.11),
+    Complex("CaCO3(test)", (("Ca(test)^2+", 1), ("CO3(test)^2-", 1)), 3.22),
 )
-CALCITE = Solid("calcite", (("Ca^2+", 1), ("CO3^2-", 1)), -8.48)
+CALCITE = Solid("calcite (test)", (("Ca(test)^2+", 1), ("CO3(test)^2-", 1)), -8.48)
 
 ACID_HA = System("acid HA", ("HA", "A-"), (4.756,), 0, 1, dh_kj=(-0.4,))
 AMPHOLYTE = System("ampholyte H2B", ("H3B+", "H2B", "HB-", "B^2-"), (2.0, 6.5, 11.0), 1, 2,
@@ -153,7 +156,7 @@ CASES = {
     # pH ≈ 5.6 (common practice for rain water); the carbonate total is all uptake.
     "pure water open to CO2": (Spec(
         activity="ideal", systems=(BICARBONATE,), gases=(CO2,),
-        fixed=(FixedGas("CO2(g)", 10 ** -3.4, f"{10 ** -3.4!r} atm"),)), True),
+        fixed=(FixedGas("CO2 (test gas)", 10 ** -3.4, f"{10 ** -3.4!r} atm"),)), True),
     # 1 mM NaHCO3 in a closed flask: pH ≈ (6.352 + 10.329)/2 ≈ 8.3; the equilibrium CO2
     # pressure p = [H2CO3]/K_H is about 10^-3.4 atm, nothing taken up.
     "bicarbonate, closed flask": (Spec(
@@ -167,7 +170,7 @@ CASES = {
         activity="davies", systems=(CALCIUM, BICARBONATE),
         ingredients=(("calcium chloride (test)", 1e-3), ("sodium bicarbonate (test)", 2e-3)),
         complexes=CALCIUM_CARBONATE, solids=(CALCITE,), gases=(CO2,),
-        fixed=(FixedGas("CO2(g)", 420e-6, "420 uatm"),), precipitate=True), True),
+        fixed=(FixedGas("CO2 (test gas)", 420e-6, "420 uatm"),), precipitate=True), True),
 }
 
 
@@ -181,3 +184,30 @@ def test_hand_made_case_matches_the_reference(name):
             may_form = allowed is True or (isinstance(allowed, tuple) and s["name"] in allowed)
             if not may_form and s["saturation_index"] > 0:
                 assert any(w["code"] == "supersaturated" for w in got["warnings"]), got["warnings"]
+
+
+def spec_names(spec: Spec) -> set[str]:
+    """Every name a spec defines: systems, their species, complexes, solids, gases."""
+    names = {s.name for s in spec.systems} | {sp for s in spec.systems for sp in s.species}
+    return names | {x.name for x in (*spec.complexes, *spec.solids, *spec.gases)}
+
+
+def library_names() -> set[str]:
+    lib = load_library()
+    names = {s.name for s in lib.systems} | {sp for s in lib.systems for sp in s.species}
+    names |= {x.name for x in (*lib.complexes, *lib.solids, *lib.gases)}
+    names |= {r.name for r in lib.reagents} | {a for r in lib.reagents for a in r.aliases}
+    return {n.casefold() for n in names}
+
+
+@pytest.mark.parametrize("name", list(CASES))
+def test_hand_made_case_defines_no_name_of_the_library(name):
+    # A custom name that is also a library name would make the comparison depend on how
+    # the loader settles the clash, which the contract does not say.
+    assert not {n.casefold() for n in spec_names(CASES[name][0])} & library_names()
+
+
+@settings(max_examples=50, deadline=None)
+@given(full_specs)
+def test_random_mixtures_define_no_name_of_the_library(spec):
+    assert not {n.casefold() for n in spec_names(spec)} & library_names()
