@@ -418,12 +418,17 @@ def _minimise(frame: _Frame, lnk_eff: list, totals_r: list, z: list, tol) -> lis
         scale = [mp.fsum(abs(v) * c[s] for s, v in frame.by_var[k]) + abs(totals_r[k]) for k in range(nvar)]
         if all(abs(gk) <= tol * sk for gk, sk in zip(g, scale)):
             return z
-        H = mp.zeros(nvar, nvar)
+        H = [[mp.mpf(0)] * nvar for _ in range(nvar)]
         for s, ms in enumerate(frame.m):
             for k1, v1 in ms:
+                row, cv = H[k1], c[s] * v1
                 for k2, v2 in ms:
-                    H[k1, k2] += c[s] * v1 * v2
-        step = mp.lu_solve(H, mp.matrix([-gk for gk in g]))
+                    row[k2] += cv * v2
+        # symmetric diagonal scaling keeps the system well conditioned when the c_s span many decades
+        d = [1 / mp.sqrt(H[k][k]) for k in range(nvar)]
+        scaled = _gauss([[H[i][j] * d[i] * d[j] for j in range(nvar)] for i in range(nvar)],
+                        [-g[i] * d[i] for i in range(nvar)])
+        step = [scaled[i] * d[i] for i in range(nvar)]
         slope = mp.fsum(g[k] * step[k] for k in range(nvar))
         f0 = objective(c, z)
         noise = mp.mpf(10) ** (-DPS + 8) * (mp.fsum(c) + mp.fsum(abs(t * x) for t, x in zip(totals_r, z)))
@@ -438,6 +443,28 @@ def _minimise(frame: _Frame, lnk_eff: list, totals_r: list, z: list, tol) -> lis
                 raise ReferenceError("line search failed")
         z, c = z_new, c_new
     raise ReferenceError("Newton did not converge")
+
+
+def _gauss(a: list[list], b: list) -> list:
+    """Solve a x = b by Gaussian elimination with partial pivoting (a and b are copied)."""
+    n = len(b)
+    a = [list(row) + [bi] for row, bi in zip(a, b)]
+    for col in range(n):
+        piv = max(range(col, n), key=lambda r: abs(a[r][col]))
+        if a[piv][col] == 0:
+            raise ReferenceError("singular Newton system")
+        a[col], a[piv] = a[piv], a[col]
+        prow = a[col]
+        for r in range(col + 1, n):
+            f = a[r][col] / prow[col]
+            if f:
+                row = a[r]
+                for k in range(col, n + 1):
+                    row[k] -= f * prow[k]
+    x = [mp.mpf(0)] * n
+    for r in range(n - 1, -1, -1):
+        x[r] = (a[r][n] - mp.fsum(a[r][k] * x[k] for k in range(r + 1, n))) / a[r][r]
+    return x
 
 
 def _root_1d(d1, d2):
@@ -532,12 +559,8 @@ class _Solver:
         m = len(fr.rows)
         lam = []
         if m:
-            Ap = mp.matrix(m, m)
-            for r, row in enumerate(fr.rows):
-                for i, pcol in enumerate(fr.pivots):
-                    Ap[i, r] = row.get(pcol, 0)
-            sol = mp.lu_solve(Ap, mp.matrix([-grad[pcol] for pcol in fr.pivots]))
-            lam = [sol[r] for r in range(m)]
+            Ap = [[mp.mpf(fr.rows[r].get(pcol, 0)) for r in range(m)] for pcol in fr.pivots]
+            lam = _gauss(Ap, [-grad[pcol] for pcol in fr.pivots])
         return u, c, grad, lam
 
     def si(self, u, i):
