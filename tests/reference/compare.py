@@ -15,6 +15,7 @@ import math
 import mpmath as mp
 
 import chem
+from chem import water
 
 from .solver import Result
 from .spec import Spec, to_toml
@@ -46,6 +47,12 @@ def differences(spec: Spec, ref: Result, got: dict, *, full: bool) -> list[str]:
         out.append(f"converged = {got.get('converged')!r}")
     if got.get("pH") is None or abs(got["pH"] - float(ref.pH)) > PH_ABS:
         out.append(f"pH {got.get('pH')!r} != {mp.nstr(ref.pH, 15)}")
+    pkw = float(water.pkw(spec.temperature_c))
+    if got.get("pOH") is None or got.get("pH") is None or abs(got["pOH"] - (pkw - got["pH"])) > PH_ABS:
+        out.append(f"pOH {got.get('pOH')!r} != pKw(T) − pH = {pkw - (got.get('pH') or 0.0)!r}")
+    if got.get("temperature_c") != spec.temperature_c or got.get("activity") != spec.activity:
+        out.append(f"temperature/activity {got.get('temperature_c')!r}/{got.get('activity')!r} "
+                   f"!= {spec.temperature_c!r}/{spec.activity!r}")
     if not _close(got.get("ionic_strength_M"), ref.ionic_strength, CONC_REL, 1e-30):
         out.append(f"ionic strength {got.get('ionic_strength_M')!r} != {mp.nstr(ref.ionic_strength, 15)}")
 
@@ -91,8 +98,9 @@ def differences(spec: Spec, ref: Result, got: dict, *, full: bool) -> list[str]:
     if not full:
         return out
 
-    if got.get("precipitate") != (list(spec.precipitate) if isinstance(spec.precipitate, tuple)
-                                  else spec.precipitate):
+    want = sorted(spec.precipitate) if isinstance(spec.precipitate, tuple) else spec.precipitate
+    have = got.get("precipitate")
+    if (sorted(have) if isinstance(have, list) else have) != want:
         out.append(f"precipitate {got.get('precipitate')!r} != {spec.precipitate!r}")
     systems = {s["name"]: s for s in got.get("systems", [])}
     for name, r in ref.systems.items():

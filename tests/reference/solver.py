@@ -58,7 +58,7 @@ from chem import water
 from .spec import STRONG_REAGENTS, Spec
 
 #: Working precision, decimal digits.
-DPS = 45
+DPS = 50
 T0_K = "298.15"
 R_J = "8.314462618"     # J/(K·mol), CODATA 2018 exact value of R
 KELVIN = "273.15"

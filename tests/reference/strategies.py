@@ -243,7 +243,7 @@ def specs(draw, *, full: bool = True) -> Spec:
             precipitate = draw(st.sampled_from([False, True]))
 
         # a gas dissolving into the neutral species of a (new) volatile ligand
-        if draw(st.booleans()):
+        if len(ligands) < 10 and draw(st.booleans()):
             idx = len(ligands) + 1
             lg = _ligand(draw, idx, allow_no_pka=False, need_neutral=True)
             k_neutral = lg.charge_fp
