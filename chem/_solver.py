@@ -161,14 +161,23 @@ def run_kernel(prob: Problem, inp: K.Inputs, *, u0=None, i0=None, max_iter: int 
 def fast_data(prob: Problem, lnk: np.ndarray) -> list:
     """Per system: (total, base charge, ln β per species, j per species, z² per species, size, z per species)."""
     st = prob.structure
-    out = []
-    for k, sys_ in enumerate(st.systems):
-        rows = st.sys_rows[k]
-        total = float(prob.totals[st.sys_comp[k]])
-        out.append((total, float(sys_.base_charge), [float(lnk[r]) for r in rows],
-                    [float(st.nu[r, 0]) for r in rows], [float(st.z2[r]) for r in rows], float(sys_.ion_size_a),
-                    [float(st.z[r]) for r in rows]))
-    return out
+    cache = st.cache.setdefault("fast", {})
+    template = cache.get(prob.temperature_c)
+    if template is None:
+        template = []
+        lk = lnk.tolist()
+        nu_h = st.nu[:, 0].tolist()
+        z2 = st.z2.tolist()
+        z = st.z.tolist()
+        for k, sys_ in enumerate(st.systems):
+            rows = st.sys_rows[k]
+            template.append((float(sys_.base_charge), [lk[r] for r in rows], [nu_h[r] for r in rows],
+                             [z2[r] for r in rows], float(sys_.ion_size_a), [z[r] for r in rows]))
+        if len(cache) > 64:
+            cache.clear()
+        cache[prob.temperature_c] = template
+    totals = prob.totals.tolist()
+    return [(totals[col], *tpl) for col, tpl in zip(st.sys_comp, template)]
 
 
 def _fast_kernel(systems: list, q_strong: float, i_strong: float, kw: float, a: float, b: float, mdl):
@@ -296,13 +305,16 @@ def fast_solve(systems: list, q_strong: float, i_strong: float, kw: float, a: fl
         # start from the ideal answer at that ionic strength: a bracketed solve in x alone
         prepared = bases(ionic)
         g_h, g_oh = water_gammas(ionic)
-        x = _bracketed_x(evaluate, prepared, g_h, g_oh, -7.0, 1e-6)[0]
+        x, _, _, first = _bracketed_x(evaluate, prepared, g_h, g_oh, -7.0, 0.02)
+        if not ideal and math.isfinite(first[2]) and first[2] > 0:
+            ionic = first[2]        # the ionic strength the species at that x make
     else:
         x = min(max(x0, _X_LO), _X_HI)
     i_cap = 2.0 * (i_strong + sum(p[0] * max(p[4]) for p in systems)) + 1.0
     iterations = 0
     converged = False
     last = None
+    dx_prev = di_prev = math.inf
     if not ideal:
         for _ in range(min(30, max_iter)):
             iterations += 1
@@ -326,10 +338,16 @@ def fast_solve(systems: list, q_strong: float, i_strong: float, kw: float, a: fl
             if abs(dx) < 1e-11 and abs(d_i) <= 1e-12 * ionic + 1e-17:
                 converged = True
                 break
+            # quadratic convergence: a step below 1e-7 that shrank a thousandfold leaves an
+            # error of order dx²/dx_prev < 1e-11 (the next step would be below round-off)
+            if (abs(dx) < 1e-7 and abs(dx) < 1e-3 * abs(dx_prev)
+                    and abs(d_i) <= 1e-8 * ionic and abs(d_i) < 1e-3 * abs(di_prev) + 1e-17):
+                converged = True
+                break
+            dx_prev, di_prev = dx, d_i
     if converged:
-        prepared = bases(ionic)
-        g_h, g_oh = water_gammas(ionic)
-        last = evaluate(x, prepared, g_h, g_oh)
+        # the last Newton step was below 1e-11: the balance there is f − f_x·dx, below round-off
+        last = (f - fx * dx, fx, ionic, 0.0, 0.0)
     else:
         for outer in range(60):
             prepared = bases(ionic)
@@ -350,7 +368,7 @@ def fast_solve(systems: list, q_strong: float, i_strong: float, kw: float, a: fl
     if ideal:
         ionic = last[2]
     f, _, _, hc, ohc = last
-    scale = hc + ohc + abs(q_strong) + i_strong + sum(p[0] * math.sqrt(max(p[4])) for p in systems)
+    scale = hc + ohc + abs(q_strong) + i_strong + sum(p[0] * math.sqrt(max(p[4])) for p in systems) + 1e-300
     return x, ionic, f, scale, converged, iterations
 
 
@@ -408,19 +426,22 @@ def _bracket_end(evaluate, prepared, g_h, g_oh, direction):
 def _state_from_x(prob: Problem, lnk: np.ndarray, x: float, ionic: float, a: float, b: float):
     """u, ln γ and concentrations of a pure acid–base problem from its solved (x, I)."""
     st = prob.structure
-    lng = K.ln_gamma(_ONE_POINT(st, a, b), np.zeros(1, dtype=int), np.array([ionic]))[0]
+    lay = layout_of(st)
+    lng = K.ln_gamma(_ONE_POINT(st, a, b), _ZERO, np.array([ionic]))[0]
     u = np.zeros(st.n_components)
     u[0] = x * LN10
-    for k, rows in enumerate(st.sys_rows):
-        r = np.array(rows)
-        w = lnk[r] - lng[r] + st.nu[r, 0] * u[0]
-        top = w.max()
-        u[st.sys_comp[k]] = math.log(prob.totals[st.sys_comp[k]]) - (top + math.log(np.exp(w - top).sum()))
+    if lay.rows.size:
+        w = np.where(lay.mask, lnk[lay.rows] - lng[lay.rows] + lay.j * u[0], -np.inf)
+        top = w.max(axis=1)
+        u[lay.comp] = np.log(prob.totals[lay.comp]) - (top + np.log(np.exp(w - top[:, None]).sum(axis=1)))
     lnc = np.minimum(lnk - lng + st.nu @ u, 690.0)
     return u, lng, np.exp(lnc)
 
 
-class _ONE_POINT:      # minimal stand-in for K.Inputs when only γ is needed
+_ZERO = np.zeros(1, dtype=int)
+
+
+class _ONE_POINT:      # the fields K.ln_gamma reads, for one point
     def __init__(self, st: Structure, a: float, b: float):
         self.model = st.model
         self.a = np.array([a])
@@ -499,6 +520,38 @@ def state_of(res: K.Result, i: int) -> _State:
                   bool(res.converged[i]), res.iterations, float(res.residual[i]))
 
 
+def _templates(st: Structure):
+    """Per-structure pieces of the result that do not depend on the amounts (cached on the structure)."""
+    tpl = st.cache.get("assemble")
+    if tpl is not None:
+        return tpl
+    rows = []
+    for r, info in enumerate(st.species):
+        if info.kind == "strong":
+            continue
+        if info.kind == "water":
+            rows.append((r, info.name, "water", info.protons, int(st.z[r]), (), (), -1))
+        elif info.kind == "system":
+            sys_ = info.owner
+            col = st.sys_comp[st.systems.index(sys_)]
+            rows.append((r, info.name, sys_.name, info.protons, int(st.z[r]), (), (), col))
+        else:
+            cx = info.owner
+            rows.append((r, info.name, "complex", None, int(st.z[r]),
+                         tuple((s.name, n) for s, n in cx.systems_held()),
+                         tuple((i.name, n) for i, n in cx.ions_held()), -1))
+    ion_rows = {info.name: r for r, info in enumerate(st.species) if info.kind == "strong"}
+    systems = []
+    for k, sys_ in enumerate(st.systems):
+        col = st.sys_comp[k]
+        holders = [(int(r), float(st.nu[r, col]), st.species[r].name) for r in np.nonzero(st.nu[:, col])[0]]
+        solids = [(q, float(st.sol_a[q, col]), so.name) for q, so in enumerate(st.solids) if st.sol_a[q, col]]
+        systems.append((sys_, col, holders, list(st.sys_rows[k]), solids))
+    tpl = (rows, ion_rows, systems)
+    st.cache["assemble"] = tpl
+    return tpl
+
+
 def assemble(prob: Problem, state: _State) -> Equilibrium:
     """The :class:`Equilibrium` of a solved problem."""
     from .cautions import cautions_for
@@ -508,120 +561,90 @@ def assemble(prob: Problem, state: _State) -> Equilibrium:
     mixture = prob.mixture
     t = prob.temperature_c
     pkw, a, b = water_constants(t)
-    u, c, lng = state.u, state.conc, state.lng
-    gamma = np.exp(lng)
+    u = state.u
+    c_arr = state.conc
     zero_comp = prob.zero
-    # a species holding a component whose total is really zero has none of it
     if zero_comp.any():
+        # a species holding a component whose total is really zero has none of it
         holds_zero = (st.nu[:, zero_comp] != 0).any(axis=1)
-        c = np.where(holds_zero, 0.0, c)
-    x = u[0] / LN10
-    ph = -x
+        c_arr = np.where(holds_zero, 0.0, c_arr)
+    c = c_arr.tolist()
+    c_raw = state.conc.tolist()
+    gamma = np.exp(state.lng).tolist()
+    totals = prob.totals.tolist()
+    ph = -float(u[0]) / LN10
+    rows, ion_rows, sys_tpl = _templates(st)
     species: list[Species] = []
-    names = st.species
-    totals = prob.totals
-    sys_index = {s: k for k, s in enumerate(st.systems)}
-    comp_sys = {}
-    for k, sys_ in enumerate(st.systems):
-        comp_sys[st.sys_comp[k]] = sys_
-    for r, info in enumerate(names):
-        cr = float(c[r])
-        g = float(gamma[r])
-        if info.kind == "water":
-            species.append(Species(info.name, "water", info.protons, int(st.z[r]), cr, g, None))
-        elif info.kind == "system":
-            sys_ = info.owner
-            k = sys_index[sys_]
-            tot = float(totals[st.sys_comp[k]])
-            frac = float(state.conc[r]) / tot if tot > 0 else 0.0
-            species.append(Species(info.name, sys_.name, info.protons, int(st.z[r]), cr, g, min(frac, 1.0)))
-        elif info.kind == "complex":
-            cx = info.owner
-            holds = tuple((s.name, n) for s, n in cx.systems_held())
-            ions = tuple((i.name, n) for i, n in cx.ions_held())
-            species.append(Species(info.name, "complex", None, int(st.z[r]), cr, g, None, holds, ions))
-    # strong ions: reactive ones solved, inert ones fixed
-    ion_rows = {info.name: r for r, info in enumerate(names) if info.kind == "strong"}
+    for r, name, sys_name, protons, z, holds, ions, col in rows:
+        frac = None
+        if col >= 0:
+            tot = totals[col]
+            frac = min(c_raw[r] / tot, 1.0) if tot > 0 else 0.0
+        species.append(Species(name, sys_name, protons, z, c[r], gamma[r], frac, holds, ions))
     mdl = st.model
+    ionic = state.ionic
     for ion, total in mixture.strong_ions():
         r = ion_rows.get(ion.name)
         if r is not None:
-            species.append(Species(ion.name, "strong", 0, ion.charge, float(c[r]), float(gamma[r]), None))
+            species.append(Species(ion.name, "strong", 0, ion.charge, c[r], gamma[r], None))
         else:
-            lg = 0.0 if mdl.ideal else -a * ion.charge ** 2 * mdl.d1(state.ionic, b, ion.ion_size_a)
+            lg = 0.0 if mdl.ideal else -a * ion.charge ** 2 * mdl.d1(ionic, b, ion.ion_size_a)
             species.append(Species(ion.name, "strong", 0, ion.charge, float(total), 10.0 ** lg, None))
 
-    # systems: totals, dissolved, free, distribution (species and solids)
-    amounts = state.amounts
-    uptake = np.zeros(st.n_components)
+    amounts = state.amounts.tolist() if state.amounts.size else []
     gas_uptake = {}
-    if st.fixed:
-        for k, g in enumerate(st.fixed):
-            up = -float(state.eq_mult[k]) if state.eq_mult.size > k else 0.0
-            gas_uptake[g] = up
-            uptake += up * st.nu[st.gas_row[g]]
+    for k, g in enumerate(st.fixed):
+        gas_uptake[g] = -float(state.eq_mult[k]) if state.eq_mult.size > k else 0.0
+    zero = zero_comp.tolist()
     systems_out: list[SystemState] = []
-    for k, sys_ in enumerate(st.systems):
-        col = st.sys_comp[k]
-        really_zero = bool(zero_comp[col])
-        rows = st.nu[:, col]
-        dissolved = float(c @ rows)
-        precip = float(amounts @ st.sol_a[:, col]) if amounts.size else 0.0
-        added = 0.0 if really_zero else float(totals[col])
+    for sys_, col, holders, own, solids in sys_tpl:
+        dissolved = math.fsum(n * c[r] for r, n, _ in holders)
+        precip = math.fsum(n * amounts[q] for q, n, _ in solids) if amounts else 0.0
+        added = 0.0 if zero[col] else totals[col]
         total = dissolved + precip if st.fixed else added
-        own = st.sys_rows[k]
-        free = float(sum(c[r] for r in own))
-        dist = []
-        denom = total if total > 0 else 0.0
-        for r in np.nonzero(rows)[0]:
-            share = rows[r] * c[r] / denom if denom > 0 else 0.0
-            dist.append((names[r].name, float(share)))
-        for q, so in enumerate(st.solids):
-            n = st.sol_a[q, col]
-            if n and amounts.size and amounts[q] > 0:
-                dist.append((so.name, float(n * amounts[q] / denom) if denom > 0 else 0.0))
+        free = math.fsum(c[r] for r in own)
+        dist = [(name, n * c[r] / total if total > 0 else 0.0) for r, n, name in holders]
+        dist += [(name, n * amounts[q] / total if total > 0 else 0.0) for q, n, name in solids
+                 if amounts and amounts[q] > 0]
         dist.sort(key=lambda t_: -t_[1])
         systems_out.append(SystemState(sys_.name, total, dissolved, free, tuple(dist), sys_.is_metal))
 
-    # solids
     solids_out = []
     if st.solids:
         b_now = LN10 * st.sol_logk.at(t)
-        si = (st.sol_a @ u - b_now) / LN10
-        ksp = st.sol_ksp.at(t)
+        si = ((st.sol_a @ u - b_now) / LN10).tolist()
+        ksp = st.sol_ksp.at(t).tolist()
+        allowed = st.sol_allowed.tolist()
         for q, so in enumerate(st.solids):
-            amt = float(amounts[q]) if amounts.size else 0.0
-            s_i = float(si[q])
-            if amt > 0:
-                s_i = 0.0 if abs(s_i) < 1e-9 else s_i
-            solids_out.append(SolidState(so.name, so.formula, s_i, float(ksp[q]), amt, bool(st.sol_allowed[q])))
+            amt = amounts[q] if amounts else 0.0
+            s_i = si[q]
+            if amt > 0 and abs(s_i) < 1e-9:
+                s_i = 0.0
+            solids_out.append(SolidState(so.name, so.formula, s_i, ksp[q], amt, allowed[q]))
 
-    # gases
     gases_out = []
     if st.gases:
         kh = st.gas_kh.at(t)
         lnk = LN10 * prob.log_k()
-        fixed_p = dict(zip(st.fixed, prob.pressures))
+        fixed_p = dict(zip(st.fixed, prob.pressures.tolist()))
         for g, ga in enumerate(st.gases):
             r = st.gas_row[g]
-            ln_a = float(lnk[r] + st.nu[r] @ u)
             if g in fixed_p:
-                p_atm = float(fixed_p[g])
+                p_atm = fixed_p[g]
                 up = gas_uptake.get(g, 0.0)
             else:
-                p_atm = math.exp(ln_a - LN10 * float(kh[g]))
+                p_atm = math.exp(float(lnk[r] + st.nu[r] @ u) - LN10 * float(kh[g]))
                 up = 0.0
-            gases_out.append(GasState(ga.name, p_atm, g in fixed_p, float(c[r]), up, ga.exposure_limit_ppm))
+            gases_out.append(GasState(ga.name, p_atm, g in fixed_p, c[r], up, ga.exposure_limit_ppm))
 
-    alkalinity = float(c @ st.alk_level)
+    alkalinity = float(c_arr @ st.alk_level)
     # charge balance, summed from species charges (the reported balance error)
-    q_all = float(c @ st.z) + prob.inert_q
+    q_all = float(c_arr @ st.z) + prob.inert_q
     message = ("converged" if state.converged else
                f"not converged after {state.iterations} iterations (relative balance error {state.residual:.1e})")
-    species_t = tuple(species)
-    eq = Equilibrium(mixture=mixture, pH=ph, pOH=pkw - ph, pKw=pkw, ionic_strength=state.ionic,
+    eq = Equilibrium(mixture=mixture, pH=ph, pOH=pkw - ph, pKw=pkw, ionic_strength=ionic,
                      converged=state.converged, balance_error=q_all, iterations=state.iterations,
-                     message=message, species=species_t, systems=tuple(systems_out),
+                     message=message, species=tuple(species), systems=tuple(systems_out),
                      solids=tuple(solids_out), gases=tuple(gases_out), alkalinity=alkalinity)
     object.__setattr__(eq, "_state", state)
     object.__setattr__(eq, "_problem", prob)

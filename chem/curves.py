@@ -232,9 +232,10 @@ class _Family:
     def totals(self, weights: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         """Per-point totals with zeros replaced (for the kernel), and which components are really zero."""
         tot = weights @ self.tot
-        zero = tot <= 0.0
-        zero[:, 0] = False
-        return np.where(zero, TINY_TOTAL, tot), zero
+        low = tot <= 0.0
+        low[:, 0] = False
+        zero = low & ~self.st.supplied[None, :]
+        return np.where(low, TINY_TOTAL, tot), zero
 
     def solve(self, weights: np.ndarray, t_c: np.ndarray | None = None, start=None, *, fixed_ph=None,
               pressures=None, fixed_ionic=None, allowed=None):

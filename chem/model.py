@@ -488,6 +488,7 @@ class Reagent:
         if self.net_charge != 0:
             raise ModelError(f"{owner}: not electrically neutral (net charge {self.net_charge:+d}); "
                              "check protons and counter_ions")
+        object.__setattr__(self, "_protons_added", self.protons + self.strong_acid_equivalents)
 
     @property
     def net_charge(self) -> int:
@@ -504,7 +505,7 @@ class Reagent:
     @property
     def proton_count(self) -> int:
         """Protons this reagent adds to the H+ balance per formula unit (dissociable plus strong acid − strong base)."""
-        return self.protons + self.strong_acid_equivalents
+        return self.__dict__["_protons_added"]
 
 
 @dataclass(frozen=True)

@@ -34,7 +34,7 @@ from __future__ import annotations
 
 import functools
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from typing import NamedTuple
 
 import numpy as np
@@ -147,8 +147,24 @@ class Structure:
     model: ActivityModel
     fast: bool
     """Pure acid–base: no complexes, no solids that may form, no fixed gases."""
+    supplied: np.ndarray
+    """Components a fixed gas can supply (never "really zero")."""
     alk_level: np.ndarray
     """Per species: acceptors minus donors relative to the pK 4.5 reference level (alkalinity)."""
+    cache: dict = field(default_factory=dict, compare=False, repr=False)
+    """Values derived from the structure alone (log K at a temperature, ...), filled on use."""
+
+    def log_k_at(self, t_c: float) -> np.ndarray:
+        """log10 K of every species at ``t_c`` (I = 0); read-only, cached."""
+        cache = self.cache.setdefault("log_k", {})
+        lk = cache.get(t_c)
+        if lk is None:
+            lk = self.logk.at(t_c)
+            lk.setflags(write=False)
+            if len(cache) > 256:
+                cache.clear()
+            cache[t_c] = lk
+        return lk
 
     @property
     def n_species(self) -> int:
@@ -179,8 +195,8 @@ class Problem:
     temperature_c: float
 
     def log_k(self) -> np.ndarray:
-        """log10 K of every species at the problem's temperature (I = 0)."""
-        return self.structure.logk.at(self.temperature_c)
+        """log10 K of every species at the problem's temperature (I = 0); read-only, cached per temperature."""
+        return self.structure.log_k_at(self.temperature_c)
 
 
 # --------------------------------------------------------------------------
@@ -189,8 +205,30 @@ class Problem:
 
 def compile(mixture: Mixture) -> Problem:  # noqa: A001 - the name the formulation uses
     """The tableau of ``mixture``: components, species, constants and totals."""
+    return _problem(mixture, structure_of(mixture))
+
+
+#: Structures by the identity of what defines them (the usual edit changes only amounts).
+_BY_IDENTITY: dict = {}
+
+
+def structure_of(mixture: Mixture) -> Structure:
+    """The :class:`Structure` of ``mixture`` (cached by the identity of its definitions)."""
+    systems = tuple(s for s, _ in mixture.systems())
+    ions = tuple(i for i, _ in mixture.strong_ions())
+    sig = (tuple(map(id, systems)), tuple(map(id, ions)), tuple(map(id, mixture.custom_complexes)),
+           tuple(map(id, mixture.custom_solids)), tuple(map(id, mixture.custom_gases)),
+           tuple(id(g.gas) for g in mixture.gases), mixture.use_library, mixture.precipitate, mixture.activity)
+    hit = _BY_IDENTITY.get(sig)
+    if hit is not None:
+        return hit[1]
     struct = _structure(_key(mixture))
-    return _problem(mixture, struct)
+    if len(_BY_IDENTITY) > 512:
+        _BY_IDENTITY.clear()
+    # the value keeps every object whose id is in the key alive, so ids stay unique while cached
+    _BY_IDENTITY[sig] = ((systems, ions, mixture.custom_complexes, mixture.custom_solids, mixture.custom_gases,
+                          tuple(g.gas for g in mixture.gases)), struct)
+    return struct
 
 
 def component_totals(struct: Structure, ingredients) -> tuple[np.ndarray, float, float]:
@@ -225,9 +263,10 @@ def _problem(mixture: Mixture, struct: Structure) -> Problem:
     totals, q, i_s = component_totals(struct, mixture.ingredients)
     reactive = {ion.name for ion in struct.ions}
     inert = tuple((ion, c) for ion, c in mixture.strong_ions() if ion.name not in reactive)
-    zero = totals <= 0.0
+    zero = (totals <= 0.0) & ~struct.supplied
     zero[0] = False
-    totals = np.where(zero, TINY_TOTAL, totals)
+    totals = np.where(totals <= 0.0, TINY_TOTAL, totals)
+    totals[0] = totals[0] if totals[0] != TINY_TOTAL else 0.0
     fixed_p = {g.gas.name: g.pressure_atm for g in mixture.gases}
     pressures = np.array([fixed_p[struct.gases[g].name] for g in struct.fixed], dtype=float)
     return Problem(mixture, struct, totals, zero, q, i_s, inert, pressures, mixture.temperature_c)
@@ -483,6 +522,11 @@ def _structure(key: _Key) -> Structure:
         alk[r] = level - nu_mat[r, 0]
 
     fast = not key.complexes and not (allowed.any() if allowed.size else False) and not fixed
+    supplied = np.zeros(nc, dtype=bool)
+    for g in fixed:
+        supplied |= nu_mat[gas_row[g]] != 0
+    supplied[0] = False
+    supplied.setflags(write=False)
     for arr in (nu_mat, z_arr, sol_a_arr, allowed, alk):
         arr.setflags(write=False)
     sz = np.array(size, dtype=float)
@@ -495,7 +539,7 @@ def _structure(key: _Key) -> Structure:
         sys_rows=tuple(sys_rows), ions=ions, complexes=key.complexes, solids=key.solids, sol_a=sol_a_arr,
         sol_logk=_logk(sol_rows), sol_ksp=_logk(ksp_rows), sol_allowed=allowed, gases=key.gases,
         gas_row=tuple(gas_row), gas_kh=_logk(kh_rows), fixed=tuple(fixed), model=mdl, fast=fast,
-        alk_level=alk)
+        alk_level=alk, supplied=supplied)
 
 
 def _conditional_shift_reaction(item, mdl: ActivityModel, charge, own_size, infos, by_name, sizes) -> float:

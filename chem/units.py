@@ -93,3 +93,51 @@ def parse_volume(value) -> float:
     if not math.isfinite(v) or v < 0:
         raise UnitError(f"{value!r} is not a volume (must be finite and >= 0)")
     return v
+
+
+#: Pressure units -> atm. ppm and % are parts of a 1 atm total pressure.
+_PRESSURE = {
+    "atm": 1.0, "bar": 1.0 / 1.01325, "kPa": 1.0 / 101.325, "Pa": 1.0 / 101325.0, "mmHg": 1.0 / 760.0,
+    "torr": 1.0 / 760.0, "Torr": 1.0 / 760.0, "uatm": 1e-6, "µatm": 1e-6, "μatm": 1e-6, "mbar": 1e-3 / 1.01325,
+    "ppm": 1e-6, "ppmv": 1e-6, "%": 1e-2,
+}
+
+#: Largest partial pressure accepted, atm (a sanity bound for open-vessel work).
+MAX_PRESSURE_ATM = 1000.0
+
+
+def parse_pressure(value) -> float:
+    """Partial pressure in atm from a number (atm) or a string with a unit.
+
+    Units: atm, bar, mbar, kPa, Pa, mmHg (torr), uatm (µatm), and ppm or %
+    of a 1 atm total pressure.  The pressure must be above 0.
+
+    >>> parse_pressure("420 uatm")
+    0.00042
+    >>> parse_pressure("5 %")
+    0.05
+    """
+    if isinstance(value, bool) or not isinstance(value, (int, float, str)):
+        raise UnitError(f"{value!r} is not a pressure (expected e.g. '420 uatm' or '5 %')")
+    if isinstance(value, str):
+        text = value.strip()
+        m = _NUMBER.match(text)
+        if not m:
+            raise UnitError(f"'{text[:40]}' is not a pressure (expected a number and a unit, e.g. '420 uatm')")
+        v = float(m.group(1))
+        unit = m.group(2)
+        if unit == "":
+            factor = 1.0
+        elif unit in _PRESSURE:
+            factor = _PRESSURE[unit]
+        else:
+            raise UnitError(f"'{text[:40]}': unknown pressure unit '{unit[:20]}' "
+                            "(use atm, bar, kPa, Pa, mmHg, uatm, ppm or %)")
+        p = v * factor
+    else:
+        p = float(value)
+    if not math.isfinite(p) or p <= 0:
+        raise UnitError(f"{value!r}: a pressure must be above 0")
+    if p > MAX_PRESSURE_ATM:
+        raise UnitError(f"{value!r}: more than {MAX_PRESSURE_ATM:g} atm")
+    return p
