@@ -161,6 +161,9 @@ def balance_errors(spec: Spec, got: dict, *, full: bool) -> list[str]:
     """Balances recomputed from the JSON: charge, every system's mass, fractions, ionic strength."""
     out: list[str] = []
     species = got.get("species", [])
+    broken = [s["name"] for s in species if not isinstance(s.get("conc_M"), float) or s["conc_M"] < 0]
+    if broken or not isinstance(got.get("ionic_strength_M"), float):
+        return out + [f"no finite concentration for {broken} or no ionic strength; balances not computed"]
     net = math.fsum(s["charge"] * s["conc_M"] for s in species)
     scale = math.fsum(abs(s["charge"]) * s["conc_M"] for s in species)
     if abs(net) > BALANCE_REL * scale:
