@@ -256,8 +256,8 @@ def specs(draw, *, full: bool = True) -> Spec:
                 ingredients.append((lg.name, _conc(draw)))
             names.add(gas.name)
             gases.append(gas)
-            if held:
-                p = 10.0 ** _u(draw, -6.0, 0.0)
+            if held:        # at most 10 mM of the dissolved species itself
+                p = 10.0 ** _u(draw, -6.0, min(0.0, -2.0 - gas.log_k))
                 unit = draw(st.sampled_from(["atm", "bar", "kPa", "Pa", "uatm", "ppm", "%"]))
                 factor = {"atm": 1.0, "bar": 101325.0 / 1e5, "kPa": 101.325, "Pa": 101325.0,
                           "uatm": 1e6, "ppm": 1e6, "%": 100.0}[unit]
