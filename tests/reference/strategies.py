@@ -35,7 +35,7 @@ def charge_suffix(z: int) -> str:
 
 def _u(draw, lo: float, hi: float) -> float:
     """A number in [lo, hi], rounded to 4 decimals (readable presets)."""
-    return round(draw(st.floats(lo, hi, allow_nan=False, allow_infinity=False)), 4)
+    return round(draw(st.floats(lo, hi, allow_nan=False, allow_infinity=False)), 4) + 0.0   # never -0.0
 
 
 def _conc(draw) -> float:
