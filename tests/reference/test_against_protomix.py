@@ -203,8 +203,9 @@ CASES = {
         complexes=(Complex("TCl^2+", (("T^3+", 1), ("Cl-", 1)), 1.137),),
         solids=(Solid("T(OH)3(s)", (("T^3+", 1), ("OH-", 3)), -39.0),), precipitate=True), True),
     # Ampholyte HA at 1 M (pKa 6.796, 7.919) with 12.6 mM M⁺ (chloride) and MA2⁻ log β2 7.44,
-    # Davies: pH ≈ (6.80 + 7.92)/2 ≈ 7.36 less the activity shift (≈ 7.3); most of the metal is MA2⁻; I ≈ 0.22 (past the
-    # Davies range; a warning is due, the numbers are still the model's).
+    # Davies: pH ≈ (6.80 + 7.92)/2 ≈ 7.36, a little less with the activity corrections (≈ 7.3);
+    # most of the metal is MA2⁻; I ≈ 0.22 (past the Davies range: a warning is due, the numbers
+    # are still the model's).
     "ampholyte at 1 M with a 1:2 complex": (Spec(
         activity="davies",
         systems=(metal("M", 1, "Cl-"), System("ampholyte HA", ("H2A+", "HA", "A-"), (6.7962, 7.9193), 1, 1)),
