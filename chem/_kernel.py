@@ -155,7 +155,10 @@ def _kkt_step(inp: Inputs, idx, u, c, active):
     g = c @ nu - inp.totals[idx]
     hess = np.matmul(nu.T, c[:, :, None] * nu[None, :, :])
     diag = np.einsum("pjj->pj", hess)
-    s = 1.0 / np.sqrt(np.maximum(diag, 1e-300))
+    # scale by the diagonal, but never beyond a trillionth of the component's total: a component held
+    # entirely in a solid has almost no free species, and an unbounded scale would swamp its row
+    floor = np.maximum(1e-12 * np.abs(inp.totals[idx]), 1e-300)
+    s = 1.0 / np.sqrt(np.maximum(diag, floor))
     n = nc + ne + nq
     charge = inp.z_comp is not None and nc > 1
     if charge:

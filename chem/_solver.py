@@ -591,11 +591,18 @@ def assemble(prob: Problem, state: _State) -> Equilibrium:
     totals = prob.totals.tolist()
     ph = -float(u[0]) / LN10
     rows, ion_rows, sys_tpl = _templates(st)
+    # a fixed gas exchanges material: then a system's total is what is there at equilibrium
+    denominator = list(totals)
+    if st.fixed:
+        amounts_arr = state.amounts if state.amounts.size else np.zeros(len(st.solids))
+        there = (c_arr @ st.nu + amounts_arr @ st.sol_a).tolist() if st.solids else (c_arr @ st.nu).tolist()
+        for col in np.nonzero(st.supplied)[0]:
+            denominator[col] = there[col] if there[col] > 0 else totals[col]
     species: list[Species] = []
     for r, name, sys_name, protons, z, holds, ions, col in rows:
         frac = None
         if col >= 0:
-            tot = totals[col]
+            tot = denominator[col]
             frac = min(c_raw[r] / tot, 1.0) if tot > 0 else 0.0
         species.append(Species(name, sys_name, protons, z, c[r], gamma[r], frac, holds, ions))
     mdl = st.model
