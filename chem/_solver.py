@@ -144,7 +144,12 @@ def kernel_inputs(prob: Problem, *, t_c=None, totals=None, inert_i=None, pressur
     iq = None
     if fixed_ph is None:     # a pH-stat's added acid or base carries charge the totals do not show
         iq = np.broadcast_to(np.asarray(prob.inert_q if inert_q is None else inert_q, dtype=float), (p,)).copy()
-    return K.Inputs(nu=st.nu, z2=st.z2, size=st.size, model=st.model, lnk=np.ascontiguousarray(lnk),
+    w_hess = st.cache.get("w_hess")
+    if w_hess is None:
+        nu = st.nu
+        w_hess = st.cache["w_hess"] = np.ascontiguousarray(
+            (nu[:, :, None] * nu[:, None, :]).reshape(nu.shape[0], -1))
+    return K.Inputs(nu=st.nu, z2=st.z2, size=st.size, model=st.model, lnk=np.ascontiguousarray(lnk), w_hess=w_hess,
                     totals=np.ascontiguousarray(tot), a=a, b=b, inert_i=np.array(ii), eq_rows=eq_rows,
                     eq_rhs=eq_rhs, sol_a=sol_a, sol_b=np.ascontiguousarray(sol_b), allowed=allowed,
                     fixed_ionic=fi, counter_row=counter, z_comp=st.z_comp if iq is not None else None,
