@@ -140,13 +140,17 @@ def _objective(inp: Inputs, idx, u, lng) -> tuple[np.ndarray, np.ndarray]:
     return c.sum(axis=1) - np.einsum("pj,pj->p", inp.totals[idx], u), c
 
 
-def _kkt_step(inp: Inputs, idx, u, c, active):
-    """Newton direction d and multipliers (λ of equalities, λ of solids) for the working set.
+def _kkt_step(inp: Inputs, idx, u, c, active, joint=None, ionic=None, lam_prev=None):
+    """Newton direction d, ionic-strength step dI and multipliers (λ of equalities, λ of solids).
 
     Solves [[H, Cᵀ], [C, 0]] [d; λ] = [−g; r] with H = Σ c ν νᵀ, C the
     equality rows and the active solids' rows, r their residuals; inactive
-    solids get an identity row (λ = 0).  Rows and columns are scaled by the
-    diagonal of H so components from 1e-200 to 10 M sit in one system.
+    solids get an identity row (λ = 0).  Where ``joint`` is set, the ionic
+    strength is an unknown too, with its own equation I_computed − I = 0 and
+    d ln γ/dI in the mass balances (Newton on the whole system, quadratic
+    near the solution); elsewhere its row is the identity (dI = 0).  Rows and
+    columns are scaled by the diagonal of H so components from 1e-200 to
+    10 M sit in one system.
     """
     nu = inp.nu
     p = u.shape[0]
@@ -163,27 +167,9 @@ def _kkt_step(inp: Inputs, idx, u, c, active):
     # entirely in a solid has almost no free species, and an unbounded scale would swamp its row
     floor = np.maximum(1e-12 * np.abs(inp.totals[idx]), 1e-300)
     s = 1.0 / np.sqrt(np.maximum(diag, floor))
-    n = nc + ne + nq
-    charge = inp.z_comp is not None and nc > 1
-    if charge:
-        # The H+ row is replaced by the charge balance (row H + Σ_j z_j·row j, the same equations since
-        # every reagent is neutral), computed from the species' charges directly: no cancellation of
-        # large proton totals, so the charge balance closes to round-off of the charges it carries.
-        zc = inp.z_comp
-        q = c @ (nu @ zc) + inp.inert_q[idx]
-        mix_row = (s[:, :1] / s[:, 1:]) * zc[None, 1:]            # (p, nc-1)
-    if n == nc:
-        hs = hess * s[:, :, None] * s[:, None, :]
-        hs[:, np.arange(nc), np.arange(nc)] += 1e-14
-        rhs = -g * s
-        if charge:
-            hs[:, 0, :] += np.einsum("pj,pjk->pk", mix_row, hs[:, 1:, :])
-            rhs[:, 0] = -s[:, 0] * q
-        try:
-            ds = np.linalg.solve(hs, rhs[:, :, None])[:, :, 0]
-        except np.linalg.LinAlgError:
-            ds = _lstsq(hs, rhs)
-        return ds * s, np.zeros((p, 0)), np.zeros((p, 0)), g
+    ji = 1 if joint is not None and joint.any() else 0
+    o = nc + ji                                      # first multiplier column
+    n = o + ne + nq
     k = np.zeros((p, n, n))
     k[:, :nc, :nc] = hess * s[:, :, None] * s[:, None, :]
     k[:, np.arange(nc), np.arange(nc)] += 1e-14
@@ -193,23 +179,45 @@ def _kkt_step(inp: Inputs, idx, u, c, active):
         e = inp.eq_rows[None, :, :] * s[:, None, :]              # (p, ne, nc)
         norm = 1.0 / np.maximum(np.linalg.norm(e, axis=2), 1e-300)
         e = e * norm[:, :, None]
-        k[:, nc:nc + ne, :nc] = e
-        k[:, :nc, nc:nc + ne] = np.transpose(e, (0, 2, 1))
-        rhs[:, nc:nc + ne] = (inp.eq_rhs[idx] - u @ inp.eq_rows.T) * norm
+        k[:, o:o + ne, :nc] = e
+        k[:, :nc, o:o + ne] = np.transpose(e, (0, 2, 1))
+        rhs[:, o:o + ne] = (inp.eq_rhs[idx] - u @ inp.eq_rows.T) * norm
     else:
         norm = np.zeros((p, 0))
     if nq:
         a = inp.sol_a[None, :, :] * s[:, None, :]                # (p, nq, nc)
         qn = 1.0 / np.maximum(np.linalg.norm(a, axis=2), 1e-300)
         a = a * qn[:, :, None] * active[:, :, None]
-        k[:, nc + ne:, :nc] = a
-        k[:, :nc, nc + ne:] = np.transpose(a, (0, 2, 1))
-        ii = np.arange(nc + ne, n)
+        k[:, o + ne:, :nc] = a
+        k[:, :nc, o + ne:] = np.transpose(a, (0, 2, 1))
+        ii = np.arange(o + ne, n)
         k[:, ii, ii] = np.where(active, 0.0, 1.0)
-        rhs[:, nc + ne:] = np.where(active, (inp.sol_b[idx] - u @ inp.sol_a.T) * qn, 0.0)
+        rhs[:, o + ne:] = np.where(active, (inp.sol_b[idx] - u @ inp.sol_a.T) * qn, 0.0)
     else:
         qn = np.zeros((p, 0))
-    if charge:
+    if ji:
+        jm = joint[:, None]
+        dlng = d_ln_gamma(inp, idx, ionic)                        # (p, ns)
+        cz = c * inp.z2
+        k[:, :nc, nc] = np.where(jm, ((c * -dlng) @ nu) * s, 0.0)
+        k[:, nc, :nc] = np.where(jm, 0.5 * (cz @ nu) * s, 0.0)
+        k[:, nc, nc] = np.where(joint, 0.5 * (cz * -dlng).sum(axis=1) - 1.0, 1.0)
+        # the pH-stat's counter-ion enters through its multiplier's column below (the system
+        # solves for the new multiplier itself, not a change of it)
+        counter = inp.counter_row is not None and ne and lam_prev is not None and lam_prev.shape[1]
+        i_comp = ionic_of(inp, idx, c, None)
+        rhs[:, nc] = np.where(joint, -(i_comp - ionic), 0.0)
+        if counter:
+            mu = lam_prev[:, inp.counter_row]
+            k[:, nc, o + inp.counter_row] = np.where(joint, np.where(mu >= 0, 0.5, -0.5)
+                                                     * norm[:, inp.counter_row], 0.0)
+    if inp.z_comp is not None and nc > 1:
+        # The H+ row is replaced by the charge balance (row H + Σ_j z_j·row j, the same equations since
+        # every reagent is neutral), computed from the species' charges directly: no cancellation of
+        # large proton totals, so the charge balance closes to round-off of the charges it carries.
+        zc = inp.z_comp
+        q = c @ (nu @ zc) + inp.inert_q[idx]
+        mix_row = (s[:, :1] / s[:, 1:]) * zc[None, 1:]            # (p, nc-1)
         k[:, 0, :] += np.einsum("pj,pjk->pk", mix_row, k[:, 1:nc, :])
         rhs[:, 0] = -s[:, 0] * q
     try:
@@ -217,9 +225,10 @@ def _kkt_step(inp: Inputs, idx, u, c, active):
     except np.linalg.LinAlgError:
         sol = _lstsq(k, rhs)
     d = sol[:, :nc] * s
-    lam_e = sol[:, nc:nc + ne] * norm
-    lam_s = np.where(active, sol[:, nc + ne:] * qn, 0.0) if nq else np.zeros((p, 0))
-    return d, lam_e, lam_s, g
+    d_i = sol[:, nc] if ji else np.zeros(p)
+    lam_e = sol[:, o:o + ne] * norm
+    lam_s = np.where(active, sol[:, o + ne:] * qn, 0.0) if nq else np.zeros((p, 0))
+    return d, d_i, lam_e, lam_s, g
 
 
 def _lstsq(k: np.ndarray, rhs: np.ndarray) -> np.ndarray:
@@ -278,6 +287,7 @@ def _iterate(inp: Inputs, idx: np.ndarray, u: np.ndarray, ionic: np.ndarray, act
     omega = np.ones(p)
     last_di = np.zeros(p)
     gave_up = np.zeros(p, dtype=bool)
+    near_prev = np.zeros(p, dtype=bool)
     cap_i = _ionic_cap(inp, idx)
     base = _subset(inp, idx)
     sub, sub_work = base, work
@@ -292,7 +302,8 @@ def _iterate(inp: Inputs, idx: np.ndarray, u: np.ndarray, ionic: np.ndarray, act
         lng = ln_gamma(sub, local, iw)
         c = concentrations(sub, local, uw, lng)
         f0 = c.sum(axis=1) - (tot * uw).sum(axis=1)
-        d, le, ls, g = _kkt_step(sub, local, uw, c, aw)
+        joint = near_prev[work] if update_i else None
+        d, d_i, le, ls, g = _kkt_step(sub, local, uw, c, aw, joint, iw, lam_e[work] if ne else None)
         # step length: cap, blocking solids, Armijo backtracking on f
         big = np.abs(d).max(axis=1)
         cap = np.minimum(1.0, STEP_MAX / np.maximum(big, 1e-300))
@@ -304,6 +315,8 @@ def _iterate(inp: Inputs, idx: np.ndarray, u: np.ndarray, ionic: np.ndarray, act
         slope = (g * d).sum(axis=1)
         scale = c.sum(axis=1) + np.abs((tot * uw).sum(axis=1)) + 1e-300
         trust = (slope < 0) & (np.abs(slope) > 1e-13 * scale)
+        if joint is not None:
+            trust &= ~joint                   # whole-system Newton steps near the solution: taken as they are
         u_new = uw + alpha[:, None] * d
         c_new = concentrations(sub, local, u_new, lng)
         if trust.any():
@@ -351,9 +364,13 @@ def _iterate(inp: Inputs, idx: np.ndarray, u: np.ndarray, ionic: np.ndarray, act
             om = np.where(flip, 0.5 * omega[work], np.minimum(1.0, omega[work] * 1.25))
             omega[work] = om
             last_di[work] = np.where(near, delta, last_di[work])
-            ionic[work] = iw + om * delta
-            gave_up[work] = om < 1.0 / 256
-            di = np.where(near, np.abs(delta), np.inf)
+            lagged = iw + om * delta
+            jw = joint & near
+            stepped = np.clip(iw + alpha * d_i, 0.1 * iw, cap_i[work])
+            ionic[work] = np.where(jw, stepped, lagged)
+            gave_up[work] = (om < 1.0 / 256) & ~jw
+            di = np.where(jw, np.abs(alpha * d_i) + np.abs(i_new - stepped), np.where(near, np.abs(delta), np.inf))
+            near_prev[work] = near
             done = (alpha * big < STEP_TOL) & (alpha == 1.0) & (di <= 2e-14 * np.maximum(ionic[work], 1e-300)
                                                                  + 1e-18)
         else:

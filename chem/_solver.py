@@ -450,6 +450,8 @@ def _state_from_x(prob: Problem, lnk: np.ndarray, x: float, ionic: float, a: flo
         w = np.where(lay.mask, lnk[lay.rows] - lng[lay.rows] + lay.j * u[0], -np.inf)
         top = w.max(axis=1)
         u[lay.comp] = np.log(prob.totals[lay.comp]) - (top + np.log(np.exp(w - top[:, None]).sum(axis=1)))
+    if lay.ion_cols.size:          # strong ions a candidate solid names: all free
+        u[lay.ion_cols] = np.log(prob.totals[lay.ion_cols]) + lng[lay.ion_rows]
     lnc = np.minimum(lnk - lng + st.nu @ u, 690.0)
     return u, lng, np.exp(lnc)
 
@@ -503,9 +505,15 @@ def solve(mixture: Mixture, *, tol: float = 1e-13, max_iter: int = 200) -> Equil
     if st.fast:
         lnk = LN10 * prob.log_k()
         data = fast_data(prob, lnk)
+        # strong ions that only a candidate solid names react with nothing here: inert for the fast path
+        q_s, i_s = prob.inert_q, prob.inert_i
+        base = 1 + len(st.systems)
+        for k, ion in enumerate(st.ions):
+            q_s += ion.charge * float(prob.totals[base + k])
+            i_s += 0.5 * ion.charge * ion.charge * float(prob.totals[base + k])
         try:
             x, ionic, resid, scale, converged, iterations = fast_solve(
-                data, prob.inert_q, prob.inert_i, 10.0 ** -pkw, a, b, st.model, tol=tol, max_iter=max_iter)
+                data, q_s, i_s, 10.0 ** -pkw, a, b, st.model, tol=tol, max_iter=max_iter)
         except OverflowError:          # activity coefficients beyond floating point: the general kernel
             converged, iterations = False, 0
         if converged or max_iter < 50:
