@@ -486,15 +486,31 @@ def _ionic_cap(inp: Inputs, idx) -> np.ndarray:
     """
     nu = inp.nu
     tot = np.abs(inp.totals[idx])                                  # (P, nc)
+    weight = cap_weights(nu, inp.z2)
+    hmax = float(np.abs(nu[:, 0]).max(initial=1.0))
+    water = tot[:, 0] + hmax * tot[:, 1:].sum(axis=1) + 1.0
+    return 1.1 * (inp.inert_i[idx] + 0.5 * tot @ weight + water) + 1e-6
+
+
+_CAP_WEIGHTS: dict = {}
+
+
+def cap_weights(nu: np.ndarray, z2: np.ndarray) -> np.ndarray:
+    """Per component: Σ z_s²/ν_sj over the species charged to it (see :func:`_ionic_cap`); cached per table."""
+    key = (id(nu), nu.shape)
+    hit = _CAP_WEIGHTS.get(key)
+    if hit is not None and hit[0] is nu:
+        return hit[1]
     weight = np.zeros(nu.shape[1])
     for r in range(2, nu.shape[0]):
         pos = np.nonzero(nu[r, 1:] > 0)[0]
         if pos.size:
             j = 1 + pos[0]
-            weight[j] += inp.z2[r] / nu[r, j]
-    hmax = float(np.abs(nu[:, 0]).max(initial=1.0))
-    water = tot[:, 0] + hmax * tot[:, 1:].sum(axis=1) + 1.0
-    return 1.1 * (inp.inert_i[idx] + 0.5 * tot @ weight + water) + 1e-6
+            weight[j] += z2[r] / nu[r, j]
+    if len(_CAP_WEIGHTS) > 256:
+        _CAP_WEIGHTS.clear()
+    _CAP_WEIGHTS[key] = (nu, weight)
+    return weight
 
 
 def _make_feasible(inp: Inputs, idx, u: np.ndarray) -> np.ndarray:
@@ -639,7 +655,7 @@ def starting_values(inp: Inputs, lay: Layout, *, h_fixed: np.ndarray | None = No
             i0 = np.array(inp.fixed_ionic, dtype=float)
         u = np.zeros((p, inp.nu.shape[1]))
         x = None
-        for _ in range(2):
+        for _ in range(1):     # one pass: the Newton iteration corrects the ionic strength quadratically
             lng = ln_gamma(inp, idx, i0)
             x = _acid_base_x(inp, lay, lng, h_fixed, x)
             u[:, 0] = x
