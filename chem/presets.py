@@ -267,6 +267,12 @@ def parse_preset(data: dict, label: str, library: Library | None = None) -> Mixt
         raise PresetError(f"{label}: custom: expected [[custom]] tables")
     for i, entry in enumerate(raw_custom):
         reagent = custom_reagent(entry, f"{label}: custom {i + 1}", library)
+        clash = library.find(reagent.name)
+        if clash is not None:
+            kind = "reagent" if isinstance(clash, Reagent) else "system"
+            raise PresetError(f"{label}: custom {i + 1} ({_clip(reagent.name)}): name: '{_clip(reagent.name)}' is "
+                              f"already the library's {kind} '{_clip(clash.name)}'; give your own reagent a name of "
+                              "its own (it would silently replace the library's)")
         key = reagent.name.casefold()
         if key in customs:
             raise PresetError(f"{label}: custom {i + 1}: name '{_clip(reagent.name)}' is defined twice")

@@ -408,3 +408,11 @@ def test_a_strong_ion_named_only_by_a_candidate_solid_still_counts_in_the_fast_p
     assert fast.pH == pytest.approx(general.pH, abs=1e-10)
     assert fast.ionic_strength == pytest.approx(0.5 * sum(s.charge ** 2 * s.conc for s in fast.species), rel=1e-10)
     assert abs(fast.balance_error) < 1e-15
+
+
+def test_a_custom_reagent_may_not_take_a_library_name():
+    # A custom "sodium chloride" with a pKa would otherwise make every NaCl in the preset acidic.
+    text = ('format = 1\n[[custom]]\nname = "Sodium Chloride"\npKa = [4.0]\ncharge_fully_protonated = 0\n'
+            'protons = 1\n[[ingredient]]\nname = "sodium chloride"\nconc = "10 mM"\n')
+    with pytest.raises(PresetError, match="custom 1 .*name: .* is already the library's reagent 'sodium chloride'"):
+        loads_preset(text, "shadow.toml")
