@@ -364,7 +364,8 @@ def _iterate(inp: Inputs, idx: np.ndarray, u: np.ndarray, ionic: np.ndarray, act
             i_new = ionic_of(sub, local, c_new, le)
             if sub.fixed_ionic is not None:
                 i_new = sub.fixed_ionic
-            i_new = np.where(np.isfinite(i_new), np.minimum(i_new, cap_i[work]), iw)
+            i_new = np.where(np.isfinite(i_new), i_new if inp.counter_row is not None
+                             else np.minimum(i_new, cap_i[work]), iw)
             delta = np.where(near, i_new - iw, 0.0)
             flip = delta * last_di[work] < 0
             om = np.where(flip, 0.5 * omega[work], np.minimum(1.0, omega[work] * 1.25))
@@ -372,7 +373,9 @@ def _iterate(inp: Inputs, idx: np.ndarray, u: np.ndarray, ionic: np.ndarray, act
             last_di[work] = np.where(near, delta, last_di[work])
             lagged = iw + om * delta
             jw = joint & near
-            stepped = np.clip(iw + alpha * d_i, 0.1 * iw, cap_i[work])
+            stepped = np.maximum(iw + alpha * d_i, 0.1 * iw)
+            if inp.counter_row is None:
+                stepped = np.minimum(stepped, cap_i[work])
             ionic[work] = np.where(jw, stepped, lagged)
             gave_up[work] = (om < 1.0 / 256) & ~jw
             di = np.where(jw, np.abs(alpha * d_i) + np.abs(i_new - stepped), np.where(near, np.abs(delta), np.inf))
@@ -471,6 +474,10 @@ def _nested(inp: Inputs, idx, u, ionic, active, budget: int):
         lo, r_lo = np.where(up, ionic, lo), np.where(up, r, r_lo)
         hi, r_hi = np.where(down, ionic, hi), np.where(down, r, r_hi)
         last = np.where(up, 1.0, np.where(down, -1.0, last))
+        if inp.counter_row is not None:
+            # a pH-stat adds as much acid or base as the pH needs: its counter-ion has no bound
+            # from the totals, so the ceiling grows when the search presses against it
+            cap = np.where(up & (ionic >= cap * (1 - 1e-12)) & (cap < 1e3), 2.0 * cap, cap)
         secant = (lo * r_hi - hi * r_lo) / (r_hi - r_lo)
         bracketed = np.isfinite(hi)
         fixed = np.minimum(new_i, cap)
