@@ -52,6 +52,11 @@ class Pane:
         subprocess.run([*self.tmux, "kill-server"], capture_output=True)
 
 
+def _autosaves(tmp_path: Path) -> list[Path]:
+    """The autosave files in the test's data folder."""
+    return sorted((tmp_path / "data").glob("session*.toml"))
+
+
 def _cmdline(proc: Path) -> bytes:
     try:
         return (proc / "cmdline").read_bytes()
@@ -101,10 +106,10 @@ def test_a_dropped_connection_keeps_the_last_edit(pane, tmp_path):
     nudged = first.with_conc(first.conc * NUDGE_FACTORS[0])
     pane.wait_for(re.escape(first.reagent.name) + r"\s+" + re.escape(nudged.label))
     pane.close()                                        # the terminal goes away: SIGHUP
-    session = tmp_path / "data" / "session.toml"
     end = time.monotonic() + 5.0
-    while not session.is_file() and time.monotonic() < end:
+    while not _autosaves(tmp_path) and time.monotonic() < end:
         time.sleep(0.05)
+    [session] = _autosaves(tmp_path)
     saved = chem.load_preset(session)
     assert saved.ingredients[0].conc == pytest.approx(nudged.conc, rel=1e-12)
 
@@ -126,7 +131,8 @@ def test_sigterm_keeps_the_last_edit_and_gives_the_terminal_back(pane, tmp_path)
         os.kill(pid, signal.SIGTERM)
     pane.wait_for(r"EXIT=143")
     assert "Flask" not in pane.text()                   # the explorer's screen is gone, the shell is back
-    saved = chem.load_preset(tmp_path / "data" / "session.toml")
+    [session] = _autosaves(tmp_path)
+    saved = chem.load_preset(session)
     assert saved.ingredients[0].conc == pytest.approx(nudged.conc, rel=1e-12)
 
 

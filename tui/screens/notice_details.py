@@ -6,10 +6,10 @@ from textual.app import ComposeResult
 from textual.binding import Binding
 from textual.containers import Vertical, VerticalScroll
 from textual.content import Content
-from textual.screen import ModalScreen
 from textual.widgets import Label, Static
 
 import chem
+from tui.screens.base import Dialog
 
 #: What each warning means for the numbers, by code. Codes not listed get a general note.
 MEANING = {
@@ -29,7 +29,7 @@ CAUTION_MEANING = ("A safety caution is raised from the computed composition alo
 GENERAL = "See the message above; it names what the result depends on."
 
 
-class NoticeDetails(ModalScreen[None]):
+class NoticeDetails(Dialog[None]):
     """Every caution and warning of a result with its code, message and meaning."""
 
     BINDINGS = [Binding("escape,w,q", "close", "Close")]

@@ -32,13 +32,13 @@ from textual.containers import Grid, Horizontal, Vertical, VerticalScroll
 from textual.content import Content
 from textual.message import Message
 from textual.reactive import reactive
-from textual.screen import ModalScreen
 from textual.timer import Timer
 from textual.widget import Widget
 from textual.widgets import Button, Input, Label, Static
 from textual.worker import Worker, WorkerState, get_current_worker
 
 import chem
+from tui.screens.base import Dialog
 from tui.widgets.curve_kinds import read_celsius, read_number
 
 if TYPE_CHECKING:                    # chem.recipe needs scipy.optimize (~0.5 s): loaded in the worker only
@@ -158,7 +158,7 @@ def recipe_lines(recipe: Recipe) -> list[Content]:
     return lines
 
 
-class RecipeForm(ModalScreen["Recipe | tuple[str, Recipe] | None"]):
+class RecipeForm(Dialog["Recipe | tuple[str, Recipe] | None"]):
     """Designs a buffer recipe as the fields change; loads it into the flask or saves it as a preset.
 
     Dismisses with the :class:`chem.Recipe` (load into flask), ``("save", recipe)`` (save as
@@ -417,7 +417,7 @@ def show_text(label: Label, text: str) -> None:
         label.update(Content(text))
 
 
-def first_problem(problems: dict[str, str], screen: ModalScreen, prefix: str) -> str:
+def first_problem(problems: dict[str, str], screen: Dialog, prefix: str) -> str:
     """The problem of the field being typed in (id ``prefix`` + key), else the first one, else ""."""
     focused = screen.focused.id if screen.focused is not None and screen.focused.id else ""
     return problems.get(focused.removeprefix(prefix)) or next(iter(problems.values()), "")

@@ -9,10 +9,10 @@ from textual import on
 from textual.app import ComposeResult
 from textual.binding import Binding
 from textual.containers import Vertical
-from textual.screen import ModalScreen
 from textual.widgets import Input, Label
 
 from tui import storage
+from tui.screens.base import Dialog
 from tui.screens.choice import Choice
 
 
@@ -25,7 +25,7 @@ class SaveRequest:
     overwrite: bool
 
 
-class SavePreset(ModalScreen["SaveRequest | None"]):
+class SavePreset(Dialog["SaveRequest | None"]):
     """Asks for a preset name (and title); confirms before replacing an existing preset."""
 
     BINDINGS = [Binding("escape", "cancel", "Close", tooltip="Close without saving")]

@@ -20,11 +20,11 @@ from textual.app import ComposeResult
 from textual.binding import Binding
 from textual.containers import Horizontal, Vertical
 from textual.content import Content
-from textual.screen import ModalScreen
 from textual.widgets import Input, Label, OptionList
 from textual.widgets.option_list import Option
 
 import chem
+from tui.screens.base import Dialog
 from tui.screens.finder import matching_reagents
 from tui.screens.recipe_form import first_problem, named, show_text
 from tui.widgets.curve_kinds import (DEFAULT_SAMPLE, DEFAULT_TITRANT_CONC, DEFAULT_TO, TitrationSettings)
@@ -33,7 +33,7 @@ from tui.widgets.curve_kinds import (DEFAULT_SAMPLE, DEFAULT_TITRANT_CONC, DEFAU
 MAX_MATCHES = 5
 
 
-class TitrationSetup(ModalScreen["TitrationSettings | None"]):
+class TitrationSetup(Dialog["TitrationSettings | None"]):
     """Asks for the titrant, its stock concentration, the sample volume and the last volume added."""
 
     DEFAULT_CSS = """
