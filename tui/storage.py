@@ -169,26 +169,36 @@ def _try_lock(path: Path, *, create: bool) -> tuple[int | None, bool]:
     """(descriptor holding an exclusive lock on ``path``, or None; whether someone else holds it).
 
     A lock that cannot be taken because the file cannot be opened (a read-only folder) is
-    reported as not held by anyone: no running explorer can be writing there either.
+    reported as not held by anyone: no running explorer can be writing there either. A lock
+    file removed by another explorer while this one was taking it is taken again afresh.
     """
     if fcntl is None:
         return None, False
-    try:
-        fd = os.open(path, os.O_RDWR | (os.O_CREAT if create else 0) | getattr(os, "O_CLOEXEC", 0), 0o600)
-    except OSError:
+    for _attempt in range(5):
         try:
-            fd = os.open(path, os.O_RDONLY | getattr(os, "O_CLOEXEC", 0))
+            fd = os.open(path, os.O_RDWR | (os.O_CREAT if create else 0) | getattr(os, "O_CLOEXEC", 0), 0o600)
         except OSError:
+            try:
+                fd = os.open(path, os.O_RDONLY | getattr(os, "O_CLOEXEC", 0))
+            except OSError:
+                return None, False
+        try:
+            fcntl.flock(fd, fcntl.LOCK_EX | fcntl.LOCK_NB)
+        except BlockingIOError:
+            os.close(fd)
+            return None, True
+        except OSError:
+            os.close(fd)
             return None, False
-    try:
-        fcntl.flock(fd, fcntl.LOCK_EX | fcntl.LOCK_NB)
-    except BlockingIOError:
-        os.close(fd)
-        return None, True
-    except OSError:
-        os.close(fd)
-        return None, False
-    return fd, False
+        try:
+            if os.stat(path).st_ino == os.fstat(fd).st_ino:
+                return fd, False
+        except OSError:
+            pass
+        os.close(fd)                                    # it was removed meanwhile: lock the new one
+        if not create:
+            return None, False
+    return None, False
 
 
 def _unlock(fd: int | None) -> None:
@@ -297,8 +307,14 @@ class Orphan:
         self._drop_lock(delete=False)
 
     def set_aside(self) -> Path:
-        """Move an unreadable autosave out of the way (kept for inspection, no longer offered)."""
+        """Move an unreadable autosave file out of the way (kept for inspection, no longer offered).
+
+        Anything but a regular file (a folder, a device) is never moved: it is not ours.
+        """
         aside = self.path.with_name(self.path.name + UNREADABLE_SUFFIX)
+        if not self.path.is_file() or self.path.is_symlink():
+            self._drop_lock(delete=False)
+            raise StorageError("it is not a regular file")
         try:
             os.replace(self.path, aside)
         except OSError as exc:

@@ -1,0 +1,379 @@
+"""The explorer under stress: no lost work, no crash, one clear notice for each file problem.
+
+Keys that arrive faster than the screen can react (two enters, PageDown right after
+ctrl+p) are sent in a burst straight to the driver: ``pilot.press`` waits for the app
+to go idle after every key and so hides these races.
+"""
+
+from __future__ import annotations
+
+import contextlib
+import os
+import threading
+import time
+
+import pytest
+from textual import events
+
+import chem
+from tui import storage
+from tui.app import AUTOSAVE_DELAY_S, ExplorerApp, run_explorer
+from tui.screens.choice import Choice
+from tui.screens.help_screen import HelpScreen
+from tui.screens.preset_picker import PresetPicker
+
+NESTED = "format = 1\nx = " + "[" * 2000 + "]" * 2000 + "\n"
+
+
+def burst(app, *keys: str) -> None:
+    """Send ``keys`` at once, as a fast typist or a laggy connection delivers them."""
+    for key in keys:
+        event = events.Key(key, "\r" if key == "enter" else key if len(key) == 1 else None)
+        event.set_sender(app)
+        app._driver.send_message(event)
+
+
+def notes(app) -> list[str]:
+    return [n.message for n in app._notifications]
+
+
+@contextlib.contextmanager
+def read_only(folder, monkeypatch):
+    """Make ``folder`` read-only: by its mode, and for root (whom modes do not stop) by refusing
+    the file-system calls that would change it, as the kernel does for everyone else."""
+    folder = os.path.realpath(folder)
+    os.chmod(folder, 0o555)
+    if os.geteuid() == 0:
+        def inside(path) -> bool:
+            return os.path.realpath(os.fspath(path)).startswith(folder + os.sep)
+
+        def refuse(path):
+            raise PermissionError(13, "Permission denied", os.fspath(path))
+
+        real_open, real_replace, real_unlink, real_mkdir, real_link, real_rename = (
+            os.open, os.replace, os.unlink, os.mkdir, os.link, os.rename)
+        writes = os.O_WRONLY | os.O_RDWR | os.O_CREAT
+
+        def open_(path, flags, *args, **kwargs):
+            if flags & writes and inside(path):
+                refuse(path)
+            return real_open(path, flags, *args, **kwargs)
+
+        def two(real):
+            def call(src, dst, *args, **kwargs):
+                if inside(src) or inside(dst):
+                    refuse(dst)
+                return real(src, dst, *args, **kwargs)
+            return call
+
+        def one(real):
+            def call(path, *args, **kwargs):
+                if inside(path):
+                    refuse(path)
+                return real(path, *args, **kwargs)
+            return call
+
+        monkeypatch.setattr(os, "open", open_)
+        monkeypatch.setattr(os, "replace", two(real_replace))
+        monkeypatch.setattr(os, "rename", two(real_rename))
+        monkeypatch.setattr(os, "link", two(real_link))
+        monkeypatch.setattr(os, "unlink", one(real_unlink))
+        monkeypatch.setattr(os, "mkdir", one(real_mkdir))
+    try:
+        yield
+    finally:
+        monkeypatch.undo()
+        os.chmod(folder, 0o755)
+
+
+# -- 1. lost work ------------------------------------------------------------------------------
+
+async def test_escape_at_the_restore_offer_keeps_the_autosave(acetate_buffer, orphan, autosaved):
+    earlier = acetate_buffer.with_temperature(31.0)
+    orphan(earlier)
+    for _ in range(2):                                  # offered again at the next start
+        app = ExplorerApp(acetate_buffer)
+        async with app.run_test(size=(80, 24)) as pilot:
+            assert isinstance(app.screen, Choice)
+            assert "keep it for later" in str(app.screen.query_one(".dialog-keys").render())
+            await pilot.press("escape")
+            assert app.mixture == acetate_buffer
+            await pilot.press("q")                      # a clean quit
+            await pilot.pause()
+        assert app.return_value == 0
+        assert autosaved() == [earlier]
+
+
+async def test_another_running_session_keeps_its_autosave(acetate_buffer, settle, autosaved, data_dir):
+    # B runs (it holds the lock on its own autosave), A edits and quits cleanly, B is killed:
+    # B's edits are still there, and the next explorer offers them.
+    b_edits = acetate_buffer.with_temperature(40.0)
+    b = storage.Autosave.begin()
+    b.write(b_edits, 1)
+    a = ExplorerApp(acetate_buffer)
+    async with a.run_test(size=(80, 24)) as pilot:
+        assert not isinstance(a.screen, Choice)         # B is running: its autosave is not offered
+        await pilot.press("right")
+        await pilot.pause(AUTOSAVE_DELAY_S + 0.1)
+        await settle(pilot)
+        assert len(autosaved()) == 2                    # one file each
+        await pilot.press("q", "d")
+        await pilot.pause()
+    assert a.return_value == 0
+    assert autosaved() == [b_edits]                     # A's clean quit removed only its own
+    b.release()                                         # B is killed: the system drops its lock
+    c = ExplorerApp(acetate_buffer)
+    async with c.run_test(size=(80, 24)) as pilot:
+        assert isinstance(c.screen, Choice) and "40 °C" in c.screen.question
+        await pilot.press("y")
+        await settle(pilot)
+        assert c.mixture == b_edits
+        assert autosaved() == [b_edits]                 # now held by C's own autosave
+        assert c._autosave.path.exists() and not b.path.exists()
+
+
+async def test_every_orphaned_autosave_is_offered(acetate_buffer, orphan, autosaved):
+    first, second = acetate_buffer.with_temperature(30.0), acetate_buffer.with_temperature(35.0)
+    orphan(first, "session-one.toml")
+    orphan(second, "session-two.toml")
+    app = ExplorerApp(acetate_buffer)
+    async with app.run_test(size=(80, 24)) as pilot:
+        asked = []
+        while isinstance(app.screen, Choice):
+            asked.append(app.screen.question)
+            await pilot.press("escape")
+        assert len(asked) == 2 and "1 more" in asked[0]
+        assert {"30 °C" in q for q in asked} == {True, False}
+        await pilot.press("q")
+        await pilot.pause()
+    assert sorted(m.temperature_c for m in autosaved()) == [30.0, 35.0]
+
+
+async def test_a_slow_autosave_never_lands_over_a_newer_one(acetate_buffer, settle, monkeypatch, autosaved):
+    # The delayed autosave runs in a worker; a hang-up writes the newest edit at once on the UI
+    # thread. The worker's older write, finishing later, must not replace it.
+    original = storage.Autosave.write
+    stalled, go_on = threading.Event(), threading.Event()
+
+    def slow(self, mixture, sequence):
+        if threading.current_thread() is not threading.main_thread():
+            stalled.set()
+            go_on.wait(5)
+        return original(self, mixture, sequence)
+
+    monkeypatch.setattr(storage.Autosave, "write", slow)
+    app = ExplorerApp(acetate_buffer)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await pilot.press("right")
+        older = app.mixture
+        await pilot.pause(AUTOSAVE_DELAY_S + 0.1)
+        assert stalled.wait(5)                          # the worker has its (older) mixture in hand
+        await pilot.press("right")
+        newer = app.mixture
+        assert app.flush_autosave()
+        go_on.set()
+        await settle(pilot)
+        assert older != newer
+        assert autosaved() == [newer]
+
+
+async def test_temporary_files_left_by_a_killed_save_are_removed(acetate_buffer, data_dir):
+    presets = data_dir / "presets"
+    presets.mkdir(parents=True)
+    old = time.time() - 3600
+    stale = [data_dir / ".session-x.toml.ab12cd34.tmp", presets / ".rinse.toml.zz_9yy8x.tmp"]
+    fresh = presets / ".rinse.toml.0123abcd.tmp"       # a save in progress elsewhere: left alone
+    other = presets / ".notes.txt.ab12cd34.tmp"         # not ours
+    for path in (*stale, fresh, other):
+        path.write_text("partial")
+    for path in (*stale, other):
+        os.utime(path, (old, old))
+    app = ExplorerApp(acetate_buffer)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await pilot.pause()
+    assert not any(p.exists() for p in stale)
+    assert fresh.exists() and other.exists()
+
+
+async def test_a_saved_preset_follows_the_umask(acetate_buffer, settle, data_dir):
+    old = os.umask(0o027)
+    try:
+        app = ExplorerApp(acetate_buffer)
+        async with app.run_test(size=(80, 24)) as pilot:
+            await pilot.press("s", "ctrl+u", *"shared", "enter")
+            await settle(pilot)
+    finally:
+        os.umask(old)
+    assert (data_dir / "presets" / "shared.toml").stat().st_mode & 0o777 == 0o640
+
+
+# -- 2. crashes --------------------------------------------------------------------------------
+
+async def test_page_down_right_after_opening_the_palette(acetate_buffer):
+    app = ExplorerApp(acetate_buffer)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await pilot.pause()
+        burst(app, "ctrl+p", "pagedown", "pagedown")
+        await pilot.pause(0.5)
+        await pilot.press("pagedown", "escape")
+        assert app.is_running and app.screen is app.screen_stack[0]
+    assert not app.return_code
+
+
+async def test_two_quick_enters_in_the_palette_run_the_command_once(acetate_buffer):
+    app = ExplorerApp(acetate_buffer)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await pilot.press("ctrl+p", *"help")
+        await pilot.pause(0.5)                          # the one match is highlighted
+        burst(app, "enter", "enter")
+        await pilot.pause(0.5)
+        assert [type(s) for s in app.screen_stack[1:]] == [HelpScreen]
+    assert not app.return_code
+
+
+async def test_a_doubled_key_in_a_dialog_closes_it_once(acetate_buffer):
+    app = ExplorerApp(acetate_buffer)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await pilot.press("right", "q")
+        assert isinstance(app.screen, Choice)
+        burst(app, "escape", "escape")
+        await pilot.pause(0.3)
+        assert app.is_running and app.screen is app.screen_stack[0]
+        await pilot.press("q")
+        burst(app, "d", "d")
+        await pilot.pause(0.3)
+    assert app.return_code == 0 and app.return_value == 0
+
+
+def test_run_explorer_reports_a_crash_with_a_nonzero_status(monkeypatch):
+    def crash(self):
+        raise RuntimeError("a bug")
+
+    real_run = ExplorerApp.run
+    monkeypatch.setattr(ExplorerApp, "_start_storage", crash)
+    monkeypatch.setattr(ExplorerApp, "run", lambda self, **kw: real_run(self, headless=True, **kw))
+    assert run_explorer(None) == 1
+
+
+async def test_a_deeply_nested_autosave_gives_one_notice(acetate_buffer, data_dir):
+    data_dir.mkdir(parents=True)
+    (data_dir / "session-deep.toml").write_text(NESTED)
+    app = ExplorerApp(acetate_buffer)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await pilot.press("right")
+        assert app.screen is app.screen_stack[0]
+        [note] = notes(app)
+        assert "cannot be read" in note and "nested" in note
+        await pilot.press("q", "d")
+        await pilot.pause()
+    assert app.return_value == 0
+    assert (data_dir / "session-deep.toml.unreadable").exists()
+
+
+async def test_a_deeply_nested_user_preset_is_listed_with_its_problem(acetate_buffer, data_dir):
+    (data_dir / "presets").mkdir(parents=True)
+    (data_dir / "presets" / "deep.toml").write_text(NESTED)
+    app = ExplorerApp(acetate_buffer)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await pilot.press("o")
+        assert isinstance(app.screen, PresetPicker)
+        deep = app.screen.entries[str(data_dir / "presets" / "deep.toml")]
+        assert "nested" in deep.problem
+        await pilot.press("escape", "q")
+        await pilot.pause()
+    assert app.return_value == 0
+
+
+async def test_a_read_only_data_folder_with_a_corrupt_autosave(acetate_buffer, data_dir, monkeypatch):
+    data_dir.mkdir(parents=True)
+    (data_dir / "session-old.toml").write_text("this is not a preset")
+    with read_only(data_dir, monkeypatch):
+        app = ExplorerApp(acetate_buffer)
+        async with app.run_test(size=(80, 24)) as pilot:
+            for _ in range(3):
+                await pilot.press("right")
+            await pilot.pause(AUTOSAVE_DELAY_S + 0.1)
+            [note] = notes(app)                         # one notice for both problems
+            assert "Autosave is off" in note and "cannot be read" in note and "left where it is" in note
+            assert app.result.mixture == app.mixture    # the explorer works on
+            await pilot.press("q", "d")
+            await pilot.pause()
+        assert app.return_value == 0
+    assert (data_dir / "session-old.toml").read_text() == "this is not a preset"
+
+
+def _data_dir_is_a_file(tmp_path, monkeypatch):
+    target = tmp_path / "a-file"
+    target.write_text("not a folder")
+    monkeypatch.setenv("PROTOMIX_DATA_DIR", str(target))
+
+
+def _data_dir_of_nobody(tmp_path, monkeypatch):
+    monkeypatch.setenv("PROTOMIX_DATA_DIR", "~no-such-user-here/protomix")
+
+
+def _xdg_is_a_file(tmp_path, monkeypatch):
+    target = tmp_path / "a-file"
+    target.write_text("not a folder")
+    monkeypatch.delenv("PROTOMIX_DATA_DIR")
+    monkeypatch.setenv("XDG_DATA_HOME", str(target))
+
+
+def _unwritable_data_dir(tmp_path, monkeypatch):
+    folder = tmp_path / "locked"
+    folder.mkdir()
+    monkeypatch.setenv("PROTOMIX_DATA_DIR", str(folder))
+    return read_only(folder, monkeypatch)
+
+
+@pytest.mark.parametrize("setup", [_data_dir_is_a_file, _data_dir_of_nobody, _xdg_is_a_file, _unwritable_data_dir])
+async def test_an_unusable_data_folder_gives_one_notice_and_the_explorer_works_on(
+        setup, acetate_buffer, tmp_path, monkeypatch, settle):
+    guard = setup(tmp_path, monkeypatch) or contextlib.nullcontext()
+    with guard:
+        app = ExplorerApp(acetate_buffer)
+        async with app.run_test(size=(80, 24)) as pilot:
+            for _ in range(3):
+                await pilot.press("right")
+                await pilot.pause(AUTOSAVE_DELAY_S + 0.05)
+            await settle(pilot)
+            [note] = notes(app)
+            assert note.startswith("Autosave is off:")
+            assert app.result.mixture == app.mixture
+            await pilot.press("o")                      # the preset list still opens (shipped ones)
+            assert isinstance(app.screen, PresetPicker)
+            await pilot.press("escape", "q", "d")
+            await pilot.pause()
+        assert app.return_code == 0 and app.return_value == 0
+
+
+async def test_an_autosave_replaced_by_a_folder_gives_one_notice(acetate_buffer, settle, data_dir):
+    app = ExplorerApp(acetate_buffer)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await pilot.press("right")
+        await pilot.pause(AUTOSAVE_DELAY_S + 0.1)
+        await settle(pilot)
+        path = app._autosave.path
+        path.unlink()
+        path.mkdir()                                    # someone put a folder in its place
+        for _ in range(4):
+            await pilot.press("right")
+            await pilot.pause(AUTOSAVE_DELAY_S + 0.05)
+        await settle(pilot)
+        [note] = notes(app)
+        assert "Autosave failed" in note and "folder" in note
+        await pilot.press("q", "d")
+        await pilot.pause()
+    assert app.return_code == 0 and app.return_value == 0
+
+
+async def test_a_folder_among_the_autosaves_is_left_alone(acetate_buffer, data_dir):
+    (data_dir / "session.toml").mkdir(parents=True)
+    app = ExplorerApp(acetate_buffer)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await pilot.press("right")
+        [note] = notes(app)
+        assert "cannot be read" in note and "folder" in note and "left where it is" in note
+        await pilot.press("q", "d")
+        await pilot.pause()
+    assert app.return_value == 0 and (data_dir / "session.toml").is_dir()
