@@ -1,26 +1,22 @@
-"""The equilibrium solver.
+"""``solve``: a mixture in, an :class:`~chem.model.Equilibrium` out.
 
-Formulation
------------
-The mixture is written as a tableau: components are H+ and the fully
-deprotonated form L of each acid–base system; every species is formed from
-components with a formation constant, HjL = L + j H+ with log β_j the sum of
-the last j stepwise pKa values (at the working temperature).  Strong ions
-(Na+, Cl-, ...) are fixed; water gives H+ and OH- with Kw(T).
+The chemistry is compiled once (:func:`chem.problem.compile`); the
+equations are solved by the batched kernel (:mod:`chem._kernel`) as a batch
+of one, or — for a pure acid–base mixture (no complexes, no solid allowed to
+form, no fixed gas) — by a fast path generated from the same problem: every
+system's species are then explicit in x = log10 a(H+) and the ionic
+strength, so a two-dimensional Newton iteration on (x, I) with analytic
+derivatives, confirmed by a bracketed solve that cannot fail, does the work
+in plain floats (several times faster than numpy's per-call overhead for
+tens of species).  A test compares its residuals and Jacobians with the
+general ones at random points.
 
-For the acid–base case every species holds exactly one non-proton component,
-so with the activity coefficients fixed the fractions of each system are
-explicit functions of x = log10 a(H+), and the charge balance
-
-    F(x) = [H+] - [OH-] + sum_s C_s sum_k alpha_sk z_sk + sum_strong z c = 0
-
-is strictly increasing in x.  It is solved by Newton's method on x kept
-inside a bracket that always contains the root (bisection whenever a Newton
-step leaves it), so it cannot fail to converge.  The ionic strength is found
-self-consistently around it.  No small-x or 5 % shortcut is used anywhere.
-
-Everything is vectorised over a leading batch axis, so sweeps and titrations
-solve hundreds of related mixtures in one call.
+The result is assembled from the solved free activities u: every species'
+concentration and activity coefficient, each system's total, dissolved,
+free amounts and distribution, saturation indices and amounts of solids,
+gas pressures and uptakes, alkalinity.  Warnings and cautions are derived
+from the result by :mod:`chem.notices` and :mod:`chem.cautions`; the solver
+computes none.
 """
 
 from __future__ import annotations
@@ -31,29 +27,22 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from . import _kernel as K
 from . import water
-from .activity import VALID_UP_TO
-from .cautions import cautions_of
-from .model import (T_REF_C, AcidBaseSystem, Equilibrium, Ion, Mixture, Notice, Species,
-                    charge_label)
+from .model import (T_REF_C, AcidBaseSystem, Complex, Equilibrium, GasState, Ion, Mixture, SolidState,
+                    Species, SystemState, charge_label)
+from .problem import LN10, Problem, Structure, compile
 
-# Ion-size parameters (Å) of H+ and OH- for the extended Debye–Hückel model:
-# Kielland (1937), J. Am. Chem. Soc. 59, 1675, Table (from memory).
-SIZE_H = 9.0
-SIZE_OH = 3.5
-
-_LN10 = math.log(10.0)
-_sum = np.add.reduce
-_X_LO, _X_HI = -19.0, 4.0   # initial bracket on log10 a(H+)
+_X_LO, _X_HI = -19.0, 4.0   # initial bracket on log10 a(H+) in the fast path
 
 
 @dataclass(frozen=True)
 class Tableau:
     """Components, species and formation constants of a mixture at its temperature.
 
-    Species rows are the system species (padded to a common width per system)
-    in the layout the solver uses.  ``stoichiometry`` lists, per species, the
-    count of each component (H+ first).
+    ``stoichiometry`` lists, per species, the count of each component (H+
+    first); ``log_beta`` is log10 of each species' formation constant from
+    the components at the mixture's temperature and I = 0.
     """
 
     components: tuple[str, ...]
@@ -63,127 +52,158 @@ class Tableau:
     charges: np.ndarray
 
 
-class _Layout:
-    """Padded arrays (systems × species) for a list of acid–base systems."""
-
-    def __init__(self, systems: tuple[AcidBaseSystem, ...]):
-        self.systems = systems
-        s = len(systems)
-        m = max((sys_.steps for sys_ in systems), default=0) + 1
-        self.width = m
-        self.mask = np.zeros((s, m), dtype=bool)
-        self.z = np.zeros((s, m))
-        self.j = np.zeros((s, m))
-        self.size = np.full((s, m), 4.0)
-        self.pka0 = np.zeros((s, max(m - 1, 1)))
-        self.dh = np.zeros_like(self.pka0)
-        self.dcp = np.zeros_like(self.pka0)
-        for i, sys_ in enumerate(systems):
-            n = sys_.steps
-            k = np.arange(n + 1)
-            self.mask[i, : n + 1] = True
-            self.z[i, : n + 1] = sys_.charge_fully_protonated - k
-            self.j[i, : n + 1] = n - k
-            self.size[i, :] = sys_.ion_size_a
-            self.pka0[i, :n] = sys_.pka
-            if sys_.dh_kj is not None:
-                self.dh[i, :n] = np.asarray(sys_.dh_kj) * 1000.0
-                if sys_.dcp_j is not None:
-                    self.dcp[i, :n] = sys_.dcp_j
-        for arr in (self.mask, self.z, self.j, self.size, self.pka0, self.dh, self.dcp):
-            arr.setflags(write=False)          # layouts are cached and shared
-
-    def log_beta(self, t_c) -> np.ndarray:
-        """log10 β of each padded species at temperatures ``t_c`` (shape (P,)).
-
-        Returns (P, S, M), -inf where padded.
-        """
-        t = np.atleast_1d(np.asarray(t_c, dtype=float))
-        T = (t + water.KELVIN)[:, None, None]
-        T0 = T_REF_C + water.KELVIN
-        pka = (self.pka0 + self.dh / (water.R_J * _LN10) * (1.0 / T - 1.0 / T0)
-               - self.dcp / (water.R_J * _LN10) * (T0 / T - 1.0 + np.log(T / T0)))
-        s, m = self.mask.shape
-        lb = np.zeros((t.size, s, m))
-        if m > 1:
-            # log β for species k (k protons removed) = sum of pKa[k:]
-            rev = np.cumsum(pka[..., ::-1], axis=-1)[..., ::-1]
-            lb[..., : m - 1] = rev[..., : m - 1]
-        lb[:, ~self.mask] = -np.inf
-        return lb
-
-
-@functools.lru_cache(maxsize=256)
-def layout_for(systems: tuple[AcidBaseSystem, ...]) -> _Layout:
-    """The padded layout of ``systems`` (cached: building it costs ~0.2 ms; layouts are never changed)."""
-    return _Layout(systems)
-
-
 def tableau(mixture: Mixture) -> Tableau:
     """The components-and-species formulation of ``mixture`` at its temperature."""
-    systems = tuple(s for s, _ in mixture.systems())
-    comps = ("H+",) + tuple(f"{s.species[-1]}" for s in systems)
-    names, rows, betas, charges = [], [], [], []
-    for i, sys_ in enumerate(systems):
-        pka = sys_.pka_at(mixture.temperature_c)
-        for k, name in enumerate(sys_.species):
-            row = [0] * len(comps)
-            row[0] = sys_.steps - k
-            row[i + 1] = 1
-            names.append(name)
-            rows.append(row)
-            betas.append(float(_sum(pka[k:])))
-            charges.append(sys_.charge_of(k))
-    return Tableau(comps, tuple(names), np.array(rows, dtype=int).reshape(len(names), len(comps)),
-                   np.array(betas), np.array(charges))
+    prob = compile(mixture)
+    st = prob.structure
+    return Tableau(st.components, tuple(s.name for s in st.species), np.rint(st.nu).astype(int),
+                   prob.log_k(), st.z.astype(int))
+
+
+@functools.lru_cache(maxsize=1024)
+def water_constants(t_c: float) -> tuple[float, float, float]:
+    """(pKw, Debye–Hückel A, B) at ``t_c`` (cached)."""
+    return (float(water.pkw(t_c)), float(water.debye_huckel_a(t_c)), float(water.debye_huckel_b(t_c)))
 
 
 # --------------------------------------------------------------------------
-# scalar kernel (one mixture): the same equations in plain Python floats,
-# which for tens of species beats numpy's per-call overhead several times.
+# kernel inputs from a problem
 # --------------------------------------------------------------------------
 
-def _kernel(systems: list, q_strong: float, i_strong: float, kw: float, a: float, b: float, model: str):
-    """The balance equations of one mixture as closures over its data (see :func:`_solve_scalar`).
+@functools.lru_cache(maxsize=256)
+def layout_of(st: Structure) -> K.Layout:
+    nsys = len(st.systems)
+    ion_cols = [1 + nsys + k for k in range(len(st.ions))]
+    names = [s.name for s in st.species]
+    ion_rows = [names.index(i.name) for i in st.ions]
+    return K.make_layout(st.nu, st.sys_rows, st.sys_comp, ion_cols, ion_rows)
 
-    Returns ``(dfactor, bases, water_gammas, evaluate, joint)``.
+
+def kernel_inputs(prob: Problem, *, t_c=None, totals=None, inert_i=None, pressures=None,
+                  fixed_ph=None, fixed_ionic=None, allowed=None, extra_solids=None) -> K.Inputs:
+    """The kernel's inputs for ``prob`` at P points.
+
+    Every keyword may give per-point values (leading axis P): temperatures,
+    component totals, inert ionic strength, fixed-gas pressures (P, fixed
+    gases), a pH held by a pH-stat (P,), an ionic strength held fixed (P,),
+    which solids may form (P, solids).
     """
-    ideal = model == "ideal"
-    davies = model == "davies"
+    st = prob.structure
+    t = np.atleast_1d(np.asarray(prob.temperature_c if t_c is None else t_c, dtype=float))
+    tot = np.atleast_2d(prob.totals if totals is None else np.asarray(totals, dtype=float))
+    p = max(t.size, tot.shape[0],
+            1 if fixed_ph is None else np.size(fixed_ph),
+            1 if pressures is None else np.atleast_2d(pressures).shape[0])
+    t = np.broadcast_to(t, (p,))
+    tot = np.broadcast_to(tot, (p, tot.shape[1]))
+    if t.size and np.all(t == t[0]):
+        lk = np.broadcast_to(st.logk.at(t[0]), (p, st.n_species))
+        pkw, a0, b0 = water_constants(float(t[0]))
+        a = np.full(p, a0)
+        b = np.full(p, b0)
+        t_single = float(t[0])
+    else:
+        lk = st.logk.at(t)
+        a = np.asarray(water.debye_huckel_a(t), dtype=float)
+        b = np.asarray(water.debye_huckel_b(t), dtype=float)
+        t_single = None
+    lnk = LN10 * lk
+    rows, rhs = [], []
+    if st.fixed:
+        pr = np.atleast_2d(prob.pressures if pressures is None else pressures)
+        pr = np.broadcast_to(pr, (p, len(st.fixed)))
+        kh = st.gas_kh.take(list(st.fixed)).at(t_single if t_single is not None else t)
+        kh = np.broadcast_to(kh, (p, len(st.fixed)))
+        for k, g in enumerate(st.fixed):
+            r = st.gas_row[g]
+            rows.append(st.nu[r])
+            rhs.append(LN10 * kh[:, k] + np.log(pr[:, k]) - lnk[:, r])
+    counter = None
+    if fixed_ph is not None:
+        e_h = np.zeros(st.n_components)
+        e_h[0] = 1.0
+        counter = len(rows)
+        rows.append(e_h)
+        rhs.append(-LN10 * np.broadcast_to(np.asarray(fixed_ph, dtype=float), (p,)))
+    eq_rows = np.array(rows, dtype=float).reshape(len(rows), st.n_components)
+    eq_rhs = np.column_stack(rhs) if rhs else np.zeros((p, 0))
+    sol_a = st.sol_a
+    sol_b = LN10 * np.broadcast_to(st.sol_logk.at(t_single if t_single is not None else t), (p, sol_a.shape[0]))
+    if allowed is None:
+        allowed = st.sol_allowed
+    allowed = np.broadcast_to(np.asarray(allowed, dtype=bool), (p, sol_a.shape[0]))
+    ii = np.broadcast_to(np.asarray(prob.inert_i if inert_i is None else inert_i, dtype=float), (p,))
+    fi = None if fixed_ionic is None else np.broadcast_to(np.asarray(fixed_ionic, dtype=float), (p,)).copy()
+    return K.Inputs(nu=st.nu, z2=st.z2, size=st.size, model=st.model, lnk=np.ascontiguousarray(lnk),
+                    totals=np.ascontiguousarray(tot), a=a, b=b, inert_i=np.array(ii), eq_rows=eq_rows,
+                    eq_rhs=eq_rhs, sol_a=sol_a, sol_b=np.ascontiguousarray(sol_b), allowed=allowed,
+                    fixed_ionic=fi, counter_row=counter)
+
+
+def run_kernel(prob: Problem, inp: K.Inputs, *, u0=None, i0=None, max_iter: int = 200,
+               fixed_ph=None) -> K.Result:
+    """Starting values (unless given) and the kernel solve."""
+    if u0 is None:
+        h = None if fixed_ph is None else -LN10 * np.broadcast_to(np.asarray(fixed_ph, dtype=float),
+                                                                  (inp.points,))
+        u0, i_start = K.starting_values(inp, layout_of(prob.structure), h_fixed=h)
+        if i0 is None:
+            i0 = i_start
+    if i0 is None:
+        i0 = np.full(inp.points, prob.inert_i)
+    return K.solve(inp, u0, np.broadcast_to(np.asarray(i0, dtype=float), (inp.points,)), max_iter=max_iter)
+
+
+# --------------------------------------------------------------------------
+# the fast path: pure acid–base, two unknowns (x, I), plain floats
+# --------------------------------------------------------------------------
+
+def fast_data(prob: Problem, lnk: np.ndarray) -> list:
+    """Per system: (total, base charge, ln β per species, j per species, z² per species, size, z per species)."""
+    st = prob.structure
+    cache = st.cache.setdefault("fast", {})
+    template = cache.get(prob.temperature_c)
+    if template is None:
+        template = []
+        lk = lnk.tolist()
+        nu_h = st.nu[:, 0].tolist()
+        z2 = st.z2.tolist()
+        z = st.z.tolist()
+        for k, sys_ in enumerate(st.systems):
+            rows = st.sys_rows[k]
+            template.append((float(sys_.base_charge), [lk[r] for r in rows], [nu_h[r] for r in rows],
+                             [z2[r] for r in rows], float(sys_.ion_size_a), [z[r] for r in rows]))
+        if len(cache) > 64:
+            cache.clear()
+        cache[prob.temperature_c] = template
+    totals = prob.totals.tolist()
+    return [(totals[col], *tpl) for col, tpl in zip(st.sys_comp, template)]
+
+
+def _fast_kernel(systems: list, q_strong: float, i_strong: float, kw: float, a: float, b: float, mdl):
+    """The balance equations of a pure acid–base mixture as closures (see :func:`fast_solve`)."""
+    ideal = mdl.ideal
+    d1, dd1 = mdl.d1, mdl.dd1
     exp = math.exp
-    sqrt = math.sqrt
-    ln10 = _LN10
+    ln10 = LN10
     al = ln10 * a
-
-    def dfactor(size: float, ionic: float) -> float:
-        """D(I) in log10 γ = -A z² D(I)."""
-        if ideal:
-            return 0.0
-        si = sqrt(ionic)
-        if davies:
-            return si / (1.0 + si) - 0.3 * ionic
-        return si / (1.0 + b * size * si)
-
-    def dterm(size: float, ionic: float) -> float:
-        """dD/dI."""
-        si = sqrt(max(ionic, 1e-16))
-        if davies:
-            return 1.0 / (2.0 * si * (1.0 + si) ** 2) - 0.3
-        return 1.0 / (2.0 * si * (1.0 + b * size * si) ** 2)
+    size_h, size_oh = 9.0, 3.5
 
     def bases(ionic: float):
-        """Per system: (total, z, ln β - ln γ per species, j, z², size, A·ln10·D)."""
+        """Per system: (total, z, ln β − ln γ per species, j, z², size, A·ln10·D)."""
         out = []
         k_of: dict[float, float] = {}
         for total, c, lnb, jj, z2s, size, zs in systems:
             k = k_of.get(size)
             if k is None:
-                k = k_of[size] = al * dfactor(size, ionic)
+                k = k_of[size] = 0.0 if ideal else al * d1(ionic, b, size)
             out.append((total, zs, [v + k * z2 for v, z2 in zip(lnb, z2s)], jj, z2s, size, k))
         return out
 
     def water_gammas(ionic: float) -> tuple[float, float]:
-        return exp(-al * dfactor(SIZE_H, ionic)), exp(-al * dfactor(SIZE_OH, ionic))
+        if ideal:
+            return 1.0, 1.0
+        return exp(-al * d1(ionic, b, size_h)), exp(-al * d1(ionic, b, size_oh))
 
     def evaluate(x: float, prepared, g_h: float, g_oh: float):
         """Charge balance F, dF/dx and the ionic strength the species imply."""
@@ -215,7 +235,7 @@ def _kernel(systems: list, q_strong: float, i_strong: float, kw: float, a: float
         return f, df, i_strong + 0.5 * (iz2 + hc + ohc), hc, ohc
 
     def joint(x: float, ionic: float, prepared, g_h: float, g_oh: float):
-        """F, G = I_computed - I, and the four partial derivatives."""
+        """F, G = I_computed − I, and the four partial derivatives."""
         dd_of: dict[float, float] = {}
         f = q_strong
         fx = fi = gx = gi = 0.0
@@ -244,7 +264,7 @@ def _kernel(systems: list, q_strong: float, i_strong: float, kw: float, a: float
                 var_z2 = 0.0
             dd = dd_of.get(size)
             if dd is None:
-                dd = dd_of[size] = al * dterm(size, ionic)
+                dd = dd_of[size] = 0.0 if ideal else al * dd1(ionic, b, size)
             f += total * zbar
             fx += total * var_j
             fi += total * dd * cov_jz2
@@ -254,8 +274,8 @@ def _kernel(systems: list, q_strong: float, i_strong: float, kw: float, a: float
         h = exp(xl)
         hc = h / g_h
         ohc = kw / (h * g_oh)
-        dh_ = al * dterm(SIZE_H, ionic)
-        doh = al * dterm(SIZE_OH, ionic)
+        dh_ = 0.0 if ideal else al * dd1(ionic, b, size_h)
+        doh = 0.0 if ideal else al * dd1(ionic, b, size_oh)
         f += hc - ohc
         fx = ln10 * (fx + hc + ohc)
         fi += dh_ * hc - doh * ohc
@@ -264,38 +284,39 @@ def _kernel(systems: list, q_strong: float, i_strong: float, kw: float, a: float
         gi = 0.5 * (gi + dh_ * hc + doh * ohc) - 1.0
         return f, g, fx, fi, gx, gi
 
-    return dfactor, bases, water_gammas, evaluate, joint
+    return bases, water_gammas, evaluate, joint
 
 
-def _solve_scalar(systems: list, q_strong: float, i_strong: float, kw: float, a: float, b: float,
-                  model: str, *, tol: float, max_iter: int, x0: float = -7.0):
-    """Solve one mixture.
+def fast_solve(systems: list, q_strong: float, i_strong: float, kw: float, a: float, b: float, mdl, *,
+               tol: float = 1e-13, max_iter: int = 200, x0: float | None = None):
+    """Solve a pure acid–base mixture; returns ``(x, ionic, residual, scale, converged, iterations)``.
 
-    ``systems`` lists ``(total, c, ln_beta, j, z2, size, z)`` per acid–base
-    system: total (mol/L), the charge ``c`` of the fully deprotonated form, per
-    species the natural-log formation constant, bound protons and squared
-    charge, the system's ion size (Å), and per species the charge.  Returns
-    ``(x, ionic, alphas, lgs, lg_h, lg_oh, residual, scale, converged, iterations)``
-    with x = log10 a(H+), ``alphas`` the fractions and ``lgs`` the log10 γ of
-    each system's species.
+    ``systems`` is :func:`fast_data`; x = log10 a(H+).  Phase 1: Newton on
+    (x, I) started at the ionic strength of the totals; phase 2 (only when
+    phase 1 did not settle): at fixed activity coefficients the charge
+    balance is strictly increasing in x, so Newton kept inside a bracket
+    (bisection whenever it leaves it) cannot fail; around it the ionic-strength
+    fixed point.
     """
-    ideal = model == "ideal"
-    dfactor, bases, water_gammas, evaluate, joint = _kernel(systems, q_strong, i_strong, kw, a, b, model)
-    ln10 = _LN10
-    sqrt = math.sqrt
-    exp = math.exp
-
-    x = min(max(x0, _X_LO), _X_HI)
-    ionic = i_strong
-    # No ionic strength can exceed this (every ion at its largest charge, plus
-    # water's ions); capping keeps wild early iterates finite.
+    ideal = mdl.ideal
+    bases, water_gammas, evaluate, joint = _fast_kernel(systems, q_strong, i_strong, kw, a, b, mdl)
+    ionic = i_strong + 0.5 * sum(p[0] * p[4][-1] for p in systems)
+    if x0 is None:
+        # start from the ideal answer at that ionic strength: a bracketed solve in x alone
+        prepared = bases(ionic)
+        g_h, g_oh = water_gammas(ionic)
+        x, _, _, first = _bracketed_x(evaluate, prepared, g_h, g_oh, -7.0, 0.02)
+        if not ideal and math.isfinite(first[2]) and first[2] > 0:
+            ionic = first[2]        # the ionic strength the species at that x make
+    else:
+        x = min(max(x0, _X_LO), _X_HI)
     i_cap = 2.0 * (i_strong + sum(p[0] * max(p[4]) for p in systems)) + 1.0
     iterations = 0
-
-    # Phase 1: two-dimensional Newton on (x, I) with analytic derivatives:
-    # F(x, I) is the charge balance, G(x, I) = I_computed - I.
+    converged = False
+    last = None
+    dx_prev = di_prev = math.inf
     if not ideal:
-        for _ in range(min(40, max_iter)):
+        for _ in range(min(30, max_iter)):
             iterations += 1
             prepared = bases(ionic)
             g_h, g_oh = water_gammas(ionic)
@@ -305,100 +326,90 @@ def _solve_scalar(systems: list, q_strong: float, i_strong: float, kw: float, a:
                 break
             dx = (f * gi - g * fi) / det
             d_i = (fx * g - gx * f) / det
-            dx = min(max(dx, -2.0), 2.0)
+            if abs(dx) > 1.0:            # far away: a damped step (never a two-cycle)
+                scale = 1.0 / abs(dx)
+                dx *= scale
+                d_i *= scale
             x = min(max(x - dx, _X_LO), _X_HI)
             new_i = ionic - d_i
             if not new_i > 0.1 * ionic:
                 new_i = 0.1 * ionic if ionic > 0 else i_strong
             ionic = min(new_i, i_cap)
-            if abs(dx) < 1e-10 and abs(d_i) <= 1e-11 * ionic + 1e-16:
+            if abs(dx) < 1e-11 and abs(d_i) <= 1e-12 * ionic + 1e-17:
+                converged = True
                 break
+            # quadratic convergence: a step below 1e-7 that shrank a thousandfold leaves an
+            # error of order dx²/dx_prev < 1e-11 (the next step would be below round-off)
+            if (abs(dx) < 1e-7 and abs(dx) < 1e-3 * abs(dx_prev)
+                    and abs(d_i) <= 1e-8 * ionic and abs(d_i) < 1e-3 * abs(di_prev) + 1e-17):
+                converged = True
+                break
+            dx_prev, di_prev = dx, d_i
+    if converged:
+        # the last Newton step was below 1e-11: the balance there is f − f_x·dx, below round-off
+        last = (f - fx * dx, fx, ionic, 0.0, 0.0)
+    else:
+        for outer in range(60):
+            prepared = bases(ionic)
+            g_h, g_oh = water_gammas(ionic)
+            x, inner_ok, its, last = _bracketed_x(evaluate, prepared, g_h, g_oh, x, tol,
+                                                  budget=max(max_iter - iterations, 1))
+            iterations += its
+            new_i = last[2]
+            if ideal:
+                converged = inner_ok
+                ionic = new_i
+                break
+            converged = inner_ok and abs(new_i - ionic) <= 1e-11 * new_i + 1e-16
+            if converged or iterations >= max_iter:
+                break
+            new_i = min(new_i, i_cap)
+            ionic = new_i if outer < 30 else 0.5 * (ionic + new_i)
+    if ideal:
+        ionic = last[2]
+    f, _, _, hc, ohc = last
+    scale = hc + ohc + abs(q_strong) + i_strong + sum(p[0] * math.sqrt(max(p[4])) for p in systems) + 1e-300
+    return x, ionic, f, scale, converged, iterations
 
-    # Phase 2: at fixed activity coefficients the balance is monotone in x;
-    # safeguarded Newton inside a bracket (bisection whenever Newton leaves
-    # it) cannot fail.  Around it, the ionic-strength fixed point.
-    converged = False
-    for outer in range(60):
-        prepared = bases(ionic)
-        g_h, g_oh = water_gammas(ionic)
-        lo, hi = -math.inf, math.inf
-        inner_ok = False
-        last = None
-        while iterations < max_iter:
-            iterations += 1
-            last = evaluate(x, prepared, g_h, g_oh)
-            f, df = last[0], last[1]
-            if f == 0.0:
-                inner_ok = True
-                break
-            if f < 0.0:
-                lo = x
-            else:
-                hi = x
-            newton = x - f / df if df > 0 else math.nan
-            if abs(newton - x) <= tol * (1.0 + abs(x)):
-                x = newton           # below tolerance: take the last step, re-evaluate below
-                last = None
-                inner_ok = True
-                break
-            if not (lo < newton < hi) or abs(newton - x) > 3.0:
-                if math.isinf(lo):
-                    lo = _bracket_end(evaluate, prepared, g_h, g_oh, -1)
-                if math.isinf(hi):
-                    hi = _bracket_end(evaluate, prepared, g_h, g_oh, +1)
-                if not lo < newton < hi:
-                    newton = 0.5 * (lo + hi)
+
+def _bracketed_x(evaluate, prepared, g_h, g_oh, x, tol, budget: int = 200):
+    """Root of the charge balance in x at fixed activity coefficients: Newton inside a bracket."""
+    lo, hi = -math.inf, math.inf
+    its = 0
+    ok = False
+    last = None
+    while its < budget:
+        its += 1
+        last = evaluate(x, prepared, g_h, g_oh)
+        f, df = last[0], last[1]
+        if f == 0.0:
+            ok = True
+            break
+        if f < 0.0:
+            lo = x
+        else:
+            hi = x
+        newton = x - f / df if df > 0 else math.nan
+        if abs(newton - x) <= tol * (1.0 + abs(x)):
             x = newton
             last = None
-            if hi - lo <= 4e-16 * (1.0 + abs(x)):
-                inner_ok = True
-                break
-        if last is None:
-            last = evaluate(x, prepared, g_h, g_oh)
-        f, _, new_i, hc, ohc = last
-        if ideal:
-            converged = inner_ok
-            ionic = new_i      # reported for information; γ = 1 regardless
+            ok = True
             break
-        i_ok = abs(new_i - ionic) <= 1e-10 * new_i + 1e-15
-        converged = inner_ok and i_ok
-        if converged or iterations >= max_iter:
+        if not (lo < newton < hi) or abs(newton - x) > 3.0:
+            if math.isinf(lo):
+                lo = _bracket_end(evaluate, prepared, g_h, g_oh, -1)
+            if math.isinf(hi):
+                hi = _bracket_end(evaluate, prepared, g_h, g_oh, +1)
+            if not lo < newton < hi:
+                newton = 0.5 * (lo + hi)
+        x = newton
+        last = None
+        if hi - lo <= 4e-16 * (1.0 + abs(x)):
+            ok = True
             break
-        new_i = min(new_i, i_cap)
-        ionic = new_i if outer < 30 else 0.5 * (ionic + new_i)
-
-    # fractions and activity coefficients at the solution
-    xl = x * ln10
-    alphas, lgs = [], []
-    scale = hc + ohc + abs(q_strong) + i_strong
-    for total, _, base, jj, z2s, _, k in prepared:
-        ws = [v + j * xl for v, j in zip(base, jj)]
-        m = max(ws)
-        es = [exp(w - m) for w in ws]
-        s0 = math.fsum(es)
-        alphas.append([e / s0 for e in es])
-        lgs.append([-k * z2 / ln10 for z2 in z2s])
-        scale += total * sqrt(max(z2s))
-    lg_h = -a * dfactor(SIZE_H, ionic)
-    lg_oh = -a * dfactor(SIZE_OH, ionic)
-    return (x, ionic, alphas, lgs, lg_h, lg_oh, f, scale, converged, iterations)
-
-
-def _capacity_scalar(systems: list, q_strong: float, i_strong: float, kw: float, a: float, b: float,
-                     model: str, x: float, ionic: float) -> float:
-    """β = dC_b/dpH at the solved state (x = log10 a(H+), I) of one mixture.
-
-    Strong monovalent base C_b raises the charge balance F by C_b and the
-    ionic strength by C_b/2; the implicit-function theorem on F = 0 and
-    G = I_computed - I = 0 gives dx/dC_b, and β = -1/(dx/dC_b) (pH = -x).
-    Exact for the model, activity corrections included.
-    """
-    _, bases, water_gammas, _, joint = _kernel(systems, q_strong, i_strong, kw, a, b, model)
-    g_h, g_oh = water_gammas(ionic)
-    _, _, fx, fi, gx, gi = joint(x, ionic, bases(ionic), g_h, g_oh)
-    if model == "ideal":          # γ = 1: the ionic strength changes nothing
-        return fx
-    return (fx * gi - fi * gx) / (gi - 0.5 * fi)
+    if last is None:
+        last = evaluate(x, prepared, g_h, g_oh)
+    return x, ok, its, last
 
 
 def _bracket_end(evaluate, prepared, g_h, g_oh, direction):
@@ -412,52 +423,47 @@ def _bracket_end(evaluate, prepared, g_h, g_oh, direction):
     return end
 
 
+def _state_from_x(prob: Problem, lnk: np.ndarray, x: float, ionic: float, a: float, b: float):
+    """u, ln γ and concentrations of a pure acid–base problem from its solved (x, I)."""
+    st = prob.structure
+    lay = layout_of(st)
+    lng = K.ln_gamma(_ONE_POINT(st, a, b), _ZERO, np.array([ionic]))[0]
+    u = np.zeros(st.n_components)
+    u[0] = x * LN10
+    if lay.rows.size:
+        w = np.where(lay.mask, lnk[lay.rows] - lng[lay.rows] + lay.j * u[0], -np.inf)
+        top = w.max(axis=1)
+        u[lay.comp] = np.log(prob.totals[lay.comp]) - (top + np.log(np.exp(w - top[:, None]).sum(axis=1)))
+    lnc = np.minimum(lnk - lng + st.nu @ u, 690.0)
+    return u, lng, np.exp(lnc)
+
+
+_ZERO = np.zeros(1, dtype=int)
+
+
+class _ONE_POINT:      # the fields K.ln_gamma reads, for one point
+    def __init__(self, st: Structure, a: float, b: float):
+        self.model = st.model
+        self.a = np.array([a])
+        self.b = np.array([b])
+        self.z2 = st.z2
+        self.size = st.size
+
+
 # --------------------------------------------------------------------------
-# single-mixture front end
+# solve
 # --------------------------------------------------------------------------
-
-def _strong_sums(strong: tuple[tuple[Ion, float], ...]) -> tuple[float, float]:
-    q = sum(ion.charge * c for ion, c in strong)
-    i = 0.5 * sum(ion.charge * ion.charge * c for ion, c in strong)
-    return q, i
-
-
-def prepare(mixture: Mixture):
-    """Layout and totals of a mixture (shared by solve, sweeps and curves)."""
-    pairs = mixture.systems()
-    systems = tuple(s for s, _ in pairs)
-    lay = layout_for(systems)
-    totals = np.array([c for _, c in pairs], dtype=float)
-    strong = mixture.strong_ions()
-    return lay, totals, strong
-
-
-@functools.lru_cache(maxsize=8192)
-def _scalar_system(sys_: AcidBaseSystem, t_c: float) -> tuple:
-    """(c, ln β, j, z², size, z) of a system at ``t_c``, in plain floats (cached)."""
-    pka = [float(v) for v in sys_.pka_at(t_c)]
-    n = sys_.steps
-    c = float(sys_.charge_fully_protonated - n)
-    ln_beta = [_LN10 * math.fsum(pka[k:]) for k in range(n + 1)]
-    jj = [float(n - k) for k in range(n + 1)]
-    zs = [c + j for j in jj]
-    return c, ln_beta, jj, [z * z for z in zs], sys_.ion_size_a, zs
-
-
-@functools.lru_cache(maxsize=1024)
-def _water_constants(t_c: float) -> tuple[float, float, float]:
-    return (float(water.pkw(t_c)), float(water.debye_huckel_a(t_c)), float(water.debye_huckel_b(t_c)))
-
 
 def solve(mixture: Mixture, *, tol: float = 1e-13, max_iter: int = 200) -> Equilibrium:
-    """Solve the complete acid–base equilibrium of ``mixture``.
+    """Solve the complete equilibrium of ``mixture``.
 
     Parameters
     ----------
     mixture : Mixture
-        Ingredients, temperature (°C) and activity model.
+        Ingredients, temperature (°C), activity model, fixed gases and the
+        precipitation setting.
     tol : float, optional
-        Convergence tolerance on log10 a(H+).
+        Convergence tolerance on log10 a(H+) of the acid–base fast path.
     max_iter : int, optional
         Cap on solver iterations; when reached, the result says
         ``converged=False`` instead of raising.
@@ -465,28 +471,221 @@ def solve(mixture: Mixture, *, tol: float = 1e-13, max_iter: int = 200) -> Equil
     Returns
     -------
     Equilibrium
-        pH (= -log10 a(H+)), every species with concentration (mol/L),
-        activity coefficient and fraction of its system, ionic strength,
-        the remaining charge-balance error, warnings and cautions.
+        pH (= −log10 a(H+)), every species with concentration (mol/L),
+        activity coefficient and fraction of its system, ionic strength, each
+        system's totals and distribution, solids (saturation index, amount),
+        gases (pressure, uptake), alkalinity, the remaining balance error,
+        warnings and cautions.
     """
+    from .notices import check_possible
+
+    check_possible(mixture)
+    prob = compile(mixture)
+    st = prob.structure
     t = mixture.temperature_c
-    pairs = mixture.systems()
-    strong = mixture.strong_ions()
-    q, i_s = _strong_sums(strong)
-    pkw, a, b = _water_constants(t)
-    sys_data = [(total, *_scalar_system(sys_, t)) for sys_, total in pairs]
-    (x, ionic, alphas, lgs, lg_h, lg_oh, resid, scale, converged, iterations) = _solve_scalar(
-        sys_data, q, i_s, 10.0 ** -pkw, a, b, mixture.activity, tol=tol, max_iter=max_iter)
-    return _assemble(mixture, pairs, strong, x, ionic, alphas, lgs, lg_h, lg_oh, resid, scale,
-                     converged, iterations, pkw, a, b)
+    pkw, a, b = water_constants(t)
+    if st.fast:
+        lnk = LN10 * prob.log_k()
+        data = fast_data(prob, lnk)
+        x, ionic, resid, scale, converged, iterations = fast_solve(
+            data, prob.inert_q, prob.inert_i, 10.0 ** -pkw, a, b, st.model, tol=tol, max_iter=max_iter)
+        u, lng, c = _state_from_x(prob, lnk, x, ionic, a, b)
+        nq = len(st.solids)
+        state = _State(u, ionic, lng, c, np.zeros(nq), np.zeros(0), converged, iterations,
+                       abs(resid) / scale if scale > 0 else 0.0)
+        return assemble(prob, state)
+    inp = kernel_inputs(prob)
+    res = run_kernel(prob, inp, max_iter=max_iter)
+    state = _State(res.u[0], float(res.ionic[0]), res.lng[0], res.conc[0], res.amounts[0], res.eq_mult[0],
+                   bool(res.converged[0]), res.iterations, float(res.residual[0]))
+    return assemble(prob, state)
+
+
+@dataclass(frozen=True)
+class _State:
+    u: np.ndarray
+    ionic: float
+    lng: np.ndarray
+    conc: np.ndarray
+    amounts: np.ndarray
+    eq_mult: np.ndarray
+    converged: bool
+    iterations: int
+    residual: float
+    """Largest relative mass-balance residual."""
+
+
+def state_of(res: K.Result, i: int) -> _State:
+    return _State(res.u[i], float(res.ionic[i]), res.lng[i], res.conc[i], res.amounts[i], res.eq_mult[i],
+                  bool(res.converged[i]), res.iterations, float(res.residual[i]))
+
+
+def _templates(st: Structure):
+    """Per-structure pieces of the result that do not depend on the amounts (cached on the structure)."""
+    tpl = st.cache.get("assemble")
+    if tpl is not None:
+        return tpl
+    rows = []
+    for r, info in enumerate(st.species):
+        if info.kind == "strong":
+            continue
+        if info.kind == "water":
+            rows.append((r, info.name, "water", info.protons, int(st.z[r]), (), (), -1))
+        elif info.kind == "system":
+            sys_ = info.owner
+            col = st.sys_comp[st.systems.index(sys_)]
+            rows.append((r, info.name, sys_.name, info.protons, int(st.z[r]), (), (), col))
+        else:
+            cx = info.owner
+            rows.append((r, info.name, "complex", None, int(st.z[r]),
+                         tuple((s.name, n) for s, n in cx.systems_held()),
+                         tuple((i.name, n) for i, n in cx.ions_held()), -1))
+    ion_rows = {info.name: r for r, info in enumerate(st.species) if info.kind == "strong"}
+    systems = []
+    for k, sys_ in enumerate(st.systems):
+        col = st.sys_comp[k]
+        holders = [(int(r), float(st.nu[r, col]), st.species[r].name) for r in np.nonzero(st.nu[:, col])[0]]
+        solids = [(q, float(st.sol_a[q, col]), so.name) for q, so in enumerate(st.solids) if st.sol_a[q, col]]
+        systems.append((sys_, col, holders, list(st.sys_rows[k]), solids))
+    tpl = (rows, ion_rows, systems)
+    st.cache["assemble"] = tpl
+    return tpl
+
+
+def assemble(prob: Problem, state: _State) -> Equilibrium:
+    """The :class:`Equilibrium` of a solved problem."""
+    from .cautions import cautions_for
+    from .notices import warnings_for
+
+    st = prob.structure
+    mixture = prob.mixture
+    t = prob.temperature_c
+    pkw, a, b = water_constants(t)
+    u = state.u
+    c_arr = state.conc
+    zero_comp = prob.zero
+    if zero_comp.any():
+        # a species holding a component whose total is really zero has none of it
+        holds_zero = (st.nu[:, zero_comp] != 0).any(axis=1)
+        c_arr = np.where(holds_zero, 0.0, c_arr)
+    c = c_arr.tolist()
+    c_raw = state.conc.tolist()
+    gamma = np.exp(state.lng).tolist()
+    totals = prob.totals.tolist()
+    ph = -float(u[0]) / LN10
+    rows, ion_rows, sys_tpl = _templates(st)
+    species: list[Species] = []
+    for r, name, sys_name, protons, z, holds, ions, col in rows:
+        frac = None
+        if col >= 0:
+            tot = totals[col]
+            frac = min(c_raw[r] / tot, 1.0) if tot > 0 else 0.0
+        species.append(Species(name, sys_name, protons, z, c[r], gamma[r], frac, holds, ions))
+    mdl = st.model
+    ionic = state.ionic
+    for ion, total in mixture.strong_ions():
+        r = ion_rows.get(ion.name)
+        if r is not None:
+            species.append(Species(ion.name, "strong", 0, ion.charge, c[r], gamma[r], None))
+        else:
+            lg = 0.0 if mdl.ideal else -a * ion.charge ** 2 * mdl.d1(ionic, b, ion.ion_size_a)
+            species.append(Species(ion.name, "strong", 0, ion.charge, float(total), 10.0 ** lg, None))
+
+    amounts = state.amounts.tolist() if state.amounts.size else []
+    gas_uptake = {}
+    for k, g in enumerate(st.fixed):
+        gas_uptake[g] = -float(state.eq_mult[k]) if state.eq_mult.size > k else 0.0
+    zero = zero_comp.tolist()
+    systems_out: list[SystemState] = []
+    for sys_, col, holders, own, solids in sys_tpl:
+        dissolved = math.fsum(n * c[r] for r, n, _ in holders)
+        precip = math.fsum(n * amounts[q] for q, n, _ in solids) if amounts else 0.0
+        added = 0.0 if zero[col] else totals[col]
+        total = dissolved + precip if st.fixed else added
+        free = math.fsum(c[r] for r in own)
+        dist = [(name, n * c[r] / total if total > 0 else 0.0) for r, n, name in holders]
+        dist += [(name, n * amounts[q] / total if total > 0 else 0.0) for q, n, name in solids
+                 if amounts and amounts[q] > 0]
+        dist.sort(key=lambda t_: -t_[1])
+        systems_out.append(SystemState(sys_.name, total, dissolved, free, tuple(dist), sys_.is_metal))
+
+    solids_out = []
+    if st.solids:
+        b_now = LN10 * st.sol_logk.at(t)
+        si = ((st.sol_a @ u - b_now) / LN10).tolist()
+        ksp = st.sol_ksp.at(t).tolist()
+        allowed = st.sol_allowed.tolist()
+        for q, so in enumerate(st.solids):
+            amt = amounts[q] if amounts else 0.0
+            s_i = si[q]
+            if amt > 0 and abs(s_i) < 1e-9:
+                s_i = 0.0
+            solids_out.append(SolidState(so.name, so.formula, s_i, ksp[q], amt, allowed[q]))
+
+    gases_out = []
+    if st.gases:
+        kh = st.gas_kh.at(t)
+        lnk = LN10 * prob.log_k()
+        fixed_p = dict(zip(st.fixed, prob.pressures.tolist()))
+        for g, ga in enumerate(st.gases):
+            r = st.gas_row[g]
+            if g in fixed_p:
+                p_atm = fixed_p[g]
+                up = gas_uptake.get(g, 0.0)
+            else:
+                p_atm = math.exp(float(lnk[r] + st.nu[r] @ u) - LN10 * float(kh[g]))
+                up = 0.0
+            gases_out.append(GasState(ga.name, p_atm, g in fixed_p, c[r], up, ga.exposure_limit_ppm))
+
+    alkalinity = float(c_arr @ st.alk_level)
+    # charge balance, summed from species charges (the reported balance error)
+    q_all = float(c_arr @ st.z) + prob.inert_q
+    message = ("converged" if state.converged else
+               f"not converged after {state.iterations} iterations (relative balance error {state.residual:.1e})")
+    eq = Equilibrium(mixture=mixture, pH=ph, pOH=pkw - ph, pKw=pkw, ionic_strength=ionic,
+                     converged=state.converged, balance_error=q_all, iterations=state.iterations,
+                     message=message, species=tuple(species), systems=tuple(systems_out),
+                     solids=tuple(solids_out), gases=tuple(gases_out), alkalinity=alkalinity)
+    object.__setattr__(eq, "_state", state)
+    object.__setattr__(eq, "_problem", prob)
+    object.__setattr__(eq, "warnings", tuple(warnings_for(eq, prob)))
+    object.__setattr__(eq, "cautions", tuple(cautions_for(eq)))
+    return eq
+
+
+# --------------------------------------------------------------------------
+# derivatives at the solution (implicit-function theorem)
+# --------------------------------------------------------------------------
+
+def derivatives(eq: Equilibrium, d_totals=None, d_inert_i: float = 0.0, d_lnk=None) -> np.ndarray:
+    """Change of (u, I) per unit change of one parameter, at the solution of ``eq``.
+
+    ``d_totals`` (nc,): change of each component total; ``d_inert_i``: of
+    the inert ionic strength; ``d_lnk`` (ns,): of each species' ln K.
+    Returns (nc + 1,): du (ln free activities) then dI.  Exact for the model
+    (activity corrections, present solids and fixed gases included).
+    """
+    prob: Problem = eq._problem  # type: ignore[attr-defined]
+    state: _State = eq._state    # type: ignore[attr-defined]
+    st = prob.structure
+    inp = kernel_inputs(prob)
+    res = K.Result(u=state.u[None], ionic=np.array([state.ionic]), lng=state.lng[None], conc=state.conc[None],
+                   amounts=state.amounts[None] if state.amounts.size else np.zeros((1, len(st.solids))),
+                   eq_mult=state.eq_mult[None] if state.eq_mult.size else np.zeros((1, inp.eq_rows.shape[0])),
+                   converged=np.array([state.converged]), residual=np.array([state.residual]), iterations=0)
+    dt = None if d_totals is None else np.asarray(d_totals, dtype=float)[None]
+    dl = None if d_lnk is None else np.asarray(d_lnk, dtype=float)[None]
+    y = K.sensitivity(inp, res, dt, np.array([d_inert_i]), None, dl)[0]
+    return y[:st.n_components + 1]
 
 
 def buffer_capacity_at(source: Equilibrium | Mixture) -> float:
     """Buffer capacity of a mixture at its own pH, mol/(L·pH).
 
-    β = dC_b/dpH for strong monovalent base added without change of volume,
-    exact for the model (activity corrections included): the implicit-function
-    theorem at the solved state, see :func:`_capacity_scalar`.  It agrees with
+    β = dC_b/dpH for a strong monovalent base (inert counter-ion) added
+    without change of volume, exact for the model (activity corrections,
+    complexes, solids that stay saturated and fixed gases included): the
+    implicit-function theorem at the solved state.  It agrees with
     :func:`chem.curves.buffer_capacity` at the same pH.
 
     Parameters
@@ -498,94 +697,21 @@ def buffer_capacity_at(source: Equilibrium | Mixture) -> float:
         source = solve(source)
     if not isinstance(source, Equilibrium):
         raise TypeError(f"buffer capacity needs a mixture or an equilibrium (got {source!r})")
-    mixture = source.mixture
-    t = mixture.temperature_c
-    q, i_s = _strong_sums(mixture.strong_ions())
-    pkw, a, b = _water_constants(t)
-    sys_data = [(total, *_scalar_system(sys_, t)) for sys_, total in mixture.systems()]
-    return float(_capacity_scalar(sys_data, q, i_s, 10.0 ** -pkw, a, b, mixture.activity,
-                                  -source.pH, source.ionic_strength))
-
-
-def _assemble(mixture: Mixture, pairs, strong, x: float, ionic: float, alphas, lgs, lg_h: float,
-              lg_oh: float, resid: float, scale: float, converged: bool, iterations: int,
-              pkw: float, a: float, b: float) -> Equilibrium:
-    model = mixture.activity
-    ph = -x
-    g_h = 10.0 ** lg_h
-    g_oh = 10.0 ** lg_oh
-    a_h = 10.0 ** x
-    species: list[Species] = [
-        Species("H+", "water", 1, 1, a_h / g_h, g_h, None),
-        Species("OH-", "water", 0, -1, 10.0 ** (-pkw) / a_h / g_oh, g_oh, None),
-    ]
-    for (sys_, total), alpha, lg in zip(pairs, alphas, lgs):
-        for k, name in enumerate(sys_.species):
-            frac = float(alpha[k])
-            species.append(Species(name, sys_.name, sys_.steps - k, sys_.charge_of(k),
-                                   float(total) * frac, 10.0 ** float(lg[k]), frac))
-    for ion, c in strong:
-        lg = _log_gamma_scalar(model, ion.charge ** 2, ion.ion_size_a, ionic, a, b)
-        species.append(Species(ion.name, "strong", 0, ion.charge, c, 10.0 ** lg, None))
-    rel = abs(resid) / scale if scale > 0 else 0.0
-    message = ("converged" if converged else
-               f"not converged after {iterations} iterations (relative balance error {rel:.1e})")
-    warnings = _warnings(mixture, [s for s, _ in pairs], ionic, converged, message)
-    species_t = tuple(species)
-    return Equilibrium(mixture=mixture, pH=ph, pOH=pkw - ph, pKw=pkw, ionic_strength=ionic,
-                       converged=converged, balance_error=resid, iterations=iterations,
-                       message=message, species=species_t,
-                       systems=tuple((s.name, float(c)) for s, c in pairs),
-                       warnings=tuple(warnings), cautions=tuple(cautions_of(mixture, ph, species_t)))
-
-
-def equilibrium_at(mixture: Mixture, batch, idx: int) -> Equilibrium:
-    """The :class:`Equilibrium` of point ``idx`` of a batch solve (:mod:`chem._batch`) of ``mixture``."""
-    t = mixture.temperature_c
-    pkw, a, b = _water_constants(t)
-    pairs = mixture.systems()
-    alphas = [batch.alpha[idx, s, : sys_.steps + 1] for s, (sys_, _) in enumerate(pairs)]
-    lgs = [batch.lg[idx, s, : sys_.steps + 1] for s, (sys_, _) in enumerate(pairs)]
-    return _assemble(mixture, pairs, mixture.strong_ions(), float(batch.x[idx]), float(batch.ionic[idx]),
-                     alphas, lgs, float(batch.lg_h[idx]), float(batch.lg_oh[idx]),
-                     float(batch.residual[idx]), float(batch.scale[idx]), bool(batch.converged[idx]),
-                     batch.iterations, pkw, a, b)
-
-
-def _log_gamma_scalar(model: str, z2: float, size: float, ionic: float, a: float, b: float) -> float:
-    """log10 γ for one ion (plain floats; same equations as :func:`chem.activity.log_gamma`)."""
-    if model == "ideal" or z2 == 0:
-        return 0.0
-    si = math.sqrt(ionic)
-    if model == "davies":
-        return -a * z2 * (si / (1.0 + si) - 0.3 * ionic)
-    return -a * z2 * si / (1.0 + b * size * si)
-
-
-def _warnings(mixture: Mixture, systems, ionic: float, converged: bool, message: str):
-    out: list[Notice] = []
-    if not converged:
-        out.append(Notice("not-converged", f"The solver did not converge: {message}. "
-                                           "Do not use these numbers."))
-    limit = VALID_UP_TO[mixture.activity]
-    if ionic > limit:
-        out.append(Notice("ionic-strength-high",
-                          f"Ionic strength {ionic:.3g} M is beyond the {mixture.activity} model's "
-                          f"usual range (up to about {limit:g} M); activity coefficients are rough."))
-    t = mixture.temperature_c
-    for sys_ in systems:
-        if not sys_.has_temperature_data():
-            if abs(t - T_REF_C) > 0.5:
-                out.append(Notice("no-temperature-data",
-                                  f"{sys_.name}: no reaction enthalpy known; its 25 °C pKa is used at {t:g} °C."))
-        elif sys_.t_range_c is not None and not (sys_.t_range_c[0] - 1e-9 <= t <= sys_.t_range_c[1] + 1e-9):
-            lo, hi = sys_.t_range_c
-            out.append(Notice("temperature-out-of-range",
-                              f"{sys_.name}: {t:g} °C is outside its temperature data ({lo:g}–{hi:g} °C); "
-                              "pKa extrapolated by van 't Hoff."))
-    return out
+    nc = source._problem.structure.n_components  # type: ignore[attr-defined]
+    d_t = np.zeros(nc)
+    d_t[0] = -1.0                 # base removes protons from the H+ total
+    du = derivatives(source, d_t, 0.5)
+    dph = -du[0] / LN10
+    return float(1.0 / dph) if dph != 0 else math.inf
 
 
 def species_label(system: AcidBaseSystem, k: int) -> str:
     """Generic label for a species of a custom system with no names given."""
     return f"{system.name} ({charge_label(system.charge_of(k)) or '0'})"
+
+
+__all__ = ["Tableau", "assemble", "buffer_capacity_at", "derivatives", "kernel_inputs", "run_kernel", "solve",
+           "state_of", "tableau", "water_constants"]
+
+# keep names used elsewhere importable
+_ = (Complex, Ion, T_REF_C)

@@ -2,11 +2,18 @@
 
 The tool informs; it does not certify. Every caution ends with
 :data:`DEFER`, and the README says the same.
+
+Cautions are derived from the solved equilibrium: the pH, the species and
+the partial pressures of gases over the solution.  Where the library has a
+gas with a published short-term exposure limit, the caution compares the
+equilibrium headspace partial pressure with it (so H2S at pH 8, where a tenth
+of the sulfide is still H2S, is flagged); a hazardous system without gas
+data falls back to the pKa rule.
 """
 
 from __future__ import annotations
 
-from .model import Equilibrium, Mixture, Notice
+from .model import Equilibrium, Notice
 
 DEFER = ("Model estimate only: follow the safety data sheets, local codes and "
          "licensed practice.")
@@ -19,19 +26,37 @@ CORROSIVE_HIGH = 12.5
 # Below this total (mol/L) a hazardous system is ignored: trace amounts.
 TRACE_M = 1e-6
 
+#: Gas partial pressures are read as ppm of a 1 atm headspace.
+PPM_PER_ATM = 1e6
+
 
 def cautions_for(eq: Equilibrium) -> list[Notice]:
     """The cautions that apply to ``eq`` (possibly none)."""
-    return cautions_of(eq.mixture, eq.pH, eq.species)
-
-
-def cautions_of(mixture: Mixture, ph: float, species) -> list[Notice]:
-    """The cautions for ``mixture`` at ``ph`` with its solved ``species``."""
+    mixture = eq.mixture
+    ph = eq.pH
+    species = eq.species
     out: list[Notice] = []
     pairs = mixture.systems()
     present = {s.name: (s, c) for s, c in pairs if c > TRACE_M}
     hazards = {s.hazard for s, _ in present.values() if s.hazard}
     t = mixture.temperature_c
+    gas_of_system = {}
+    for g in eq.gases:
+        if g.exposure_limit_ppm is not None:
+            gas_of_system.setdefault(g.name, g)
+
+    flagged_gas = set()
+    for g in eq.gases:
+        if g.exposure_limit_ppm is None:
+            continue
+        ppm = g.pressure_atm * PPM_PER_ATM
+        if ppm > g.exposure_limit_ppm:
+            flagged_gas.add(g.name)
+            out.append(Notice(
+                "toxic-gas",
+                f"The air over this mixture would hold about {_ppm(ppm)} {g.name} at equilibrium "
+                f"(limit for short exposure {g.exposure_limit_ppm:g} ppm): toxic gas can escape. Work in a fume "
+                f"hood, keep the vessel closed. {DEFER}"))
 
     for name, (sys_, total) in present.items():
         if sys_.hazard == "chlorine" and ph < 6.0:
@@ -39,7 +64,7 @@ def cautions_of(mixture: Mixture, ph: float, species) -> list[Notice]:
                 "chlorine-release",
                 f"{name} below pH 6 (here pH {ph:.2f}): hypochlorite/hypochlorous acid releases chlorine gas. "
                 f"Do not acidify bleach. {DEFER}"))
-        if sys_.hazard == "toxic-gas":
+        if sys_.hazard == "toxic-gas" and not _has_gas_data(eq, sys_):
             pka = float(sys_.pka_at(t)[0])
             if ph < pka:
                 gas = sys_.species[0]
@@ -49,7 +74,8 @@ def cautions_of(mixture: Mixture, ph: float, species) -> list[Notice]:
                     "toxic-gas",
                     f"{name} below its pKa {pka:.2f} (here pH {ph:.2f}){pct}: toxic {gas} gas can escape. "
                     f"Work in a fume hood, keep acids away. {DEFER}"))
-        if sys_.hazard == "ammonia" and total >= 0.1 and ph > float(sys_.pka_at(t)[0]):
+        if (sys_.hazard == "ammonia" and total >= 0.1 and ph > float(sys_.pka_at(t)[0])
+                and "NH3" not in flagged_gas):
             out.append(Notice(
                 "ammonia-gas",
                 f"{name} at {total:.3g} M above its pKa (pH {ph:.2f}): ammonia gas is released; "
@@ -66,3 +92,21 @@ def cautions_of(mixture: Mixture, ph: float, species) -> list[Notice]:
         out.append(Notice("corrosive-base",
                           f"pH {ph:.2f}: corrosive base; wear eye and skin protection. {DEFER}"))
     return out
+
+
+def _has_gas_data(eq: Equilibrium, sys_) -> bool:
+    """Whether a gas with an exposure limit dissolves into one of ``sys_``'s species in this result."""
+    problem = getattr(eq, "_problem", None)
+    if problem is None:
+        return False
+    st = problem.structure
+    for g, ga in enumerate(st.gases):
+        if ga.exposure_limit_ppm is not None and ga.owners and ga.owners[0] is sys_:
+            return True
+    return False
+
+
+def _ppm(ppm: float) -> str:
+    if ppm >= 1e4:
+        return f"{ppm / 1e4:.3g} % ({ppm:.3g} ppm)"
+    return f"{ppm:.3g} ppm"

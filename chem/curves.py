@@ -24,12 +24,13 @@ from typing import Callable, Sequence
 
 import numpy as np
 
-from ._batch import evaluate_at, solve_batch
-from ._solver import _strong_sums, buffer_capacity_at, layout_for, solve
+from . import _kernel as K
+from ._solver import buffer_capacity_at, kernel_inputs, run_kernel, solve
 from .diagrams import default_grid
 from .errors import ChemError
 from .library import Library, load_library, normalise
-from .model import Equilibrium, Ingredient, Mixture, Reagent
+from .model import Equilibrium, FixedGas, Ingredient, Mixture, Reagent
+from .problem import LN10, TINY_TOTAL, compile, component_totals
 from .units import MAX_CONC
 from .water import T_MAX_C, T_MIN_C
 
@@ -67,9 +68,9 @@ class Curve:
     """pH, ionic strength and every species along a one-parameter family of mixtures.
 
     ``conc`` and ``fraction`` have one row per point and one column per name
-    in ``species`` (H+ and OH- first, then each system's species); fractions
-    of H+ and OH- are NaN.  Strong ions (Na+, Cl-, ...) are not included:
-    their concentrations follow directly from the amounts.
+    in ``species`` (H+ and OH- first, then each system's species, then the
+    complexes); fractions of H+, OH- and complexes are NaN.  Strong ions
+    (Na+, Cl-, ...) are not included.
     """
 
     kind: str
@@ -90,6 +91,15 @@ class Curve:
     mixture: Mixture
     """The mixture the curve starts from."""
     _build: Callable[[int], Mixture] = field(repr=False)
+    solids: tuple[str, ...] = field(default=(), kw_only=True)
+    """Candidate solids, in the columns of ``saturation`` and ``amounts``."""
+    saturation: np.ndarray = field(default_factory=lambda: np.zeros((0, 0)), kw_only=True)
+    """Saturation index of each solid at every point."""
+    amounts: np.ndarray = field(default_factory=lambda: np.zeros((0, 0)), kw_only=True)
+    """mol/L of each solid precipitated (0 unless allowed to form)."""
+    gases: tuple[str, ...] = field(default=(), kw_only=True)
+    gas_pressure: np.ndarray = field(default_factory=lambda: np.zeros((0, 0)), kw_only=True)
+    """Partial pressure (atm) of each gas: held, or in equilibrium with the solution."""
 
     def __post_init__(self) -> None:
         _freeze(self)
@@ -130,12 +140,15 @@ class Curve:
 
 @dataclass(frozen=True)
 class EquivalencePoint:
-    """An equivalence point: where pH changes fastest with added titrant."""
+    """An equivalence point: where pH (or the tracked pX) changes fastest with added titrant."""
 
     volume_L: float
     pH: float
     slope: float
     """dpH/dV there, pH per mL (negative when the pH falls)."""
+    level: float | None = None
+    """The tracked level (pH, or pX of the tracked species) there."""
+    level_slope: float | None = None
 
     @property
     def volume_mL(self) -> float:
@@ -154,6 +167,12 @@ class TitrationCurve(Curve):
     titrant_conc: float
     """mol/L of the titrant stock."""
     sample_volume_L: float
+    track: str | None = None
+    """The species whose level pX = −log10 a(X) is followed, or None (the pH)."""
+    level: np.ndarray | None = None
+    """pX at every point (None unless ``track``)."""
+    level_slope: np.ndarray | None = None
+    """dpX/dV, per mL."""
 
 
 @dataclass(frozen=True, eq=False)
@@ -186,76 +205,116 @@ class CapacityCurve:
 # --------------------------------------------------------------------------
 
 class _Family:
-    """Mixtures sharing one layout whose amounts are ``weights @ parts``.
+    """Mixtures sharing one compiled problem whose amounts are ``weights @ parts``.
 
-    ``layout_mixture`` fixes the systems (and their order), temperature and
-    activity model; each part is a group of ingredients whose systems and
-    strong ions are added with the point's weight.
+    ``layout_mixture`` fixes the components, species, solids and gases (and
+    the temperature, activity model, fixed gases and precipitation setting);
+    each part is a group of ingredients whose component totals and inert
+    ionic strength are added with the point's weight.
     """
 
     def __init__(self, layout_mixture: Mixture, parts: Sequence[Sequence[Ingredient]]):
+        self.prob = compile(layout_mixture)
+        st = self.prob.structure
+        self.st = st
         self.model = layout_mixture.activity
         self.t_c = layout_mixture.temperature_c
-        systems = tuple(s for s, _ in layout_mixture.systems())
-        self.lay = layout_for(systems)
-        names = [s.name for s in systems]
         k = len(parts)
-        self.tot = np.zeros((k, len(names)))
-        self.q = np.zeros(k)
-        self.i = np.zeros(k)
+        self.tot = np.zeros((k, st.n_components))
+        self.inert_i = np.zeros(k)
         for n, group in enumerate(parts):
-            part = Mixture(tuple(group))
-            for sys_, c in part.systems():
-                self.tot[n, names.index(sys_.name)] += c
-            self.q[n], self.i[n] = _strong_sums(part.strong_ions())
-        species = ["H+", "OH-"]
-        owners = ["water", "water"]
-        for sys_ in systems:
-            species.extend(sys_.species)
-            owners.extend([sys_.name] * len(sys_.species))
+            self.tot[n], _, self.inert_i[n] = component_totals(st, group)
+        rows = [r for r, info in enumerate(st.species) if info.kind != "strong"]
+        self.rows = np.array(rows, dtype=int)
+        names = [st.species[r].name for r in rows]
+        owners = [_owner_name(st.species[r]) for r in rows]
         seen: dict[str, int] = {}
-        for name in species:
+        for name in names:
             seen[name] = seen.get(name, 0) + 1
-        self.species = tuple(f"{n} [{o}]" if seen[n] > 1 else n for n, o in zip(species, owners))
+        self.species = tuple(f"{n} [{o}]" if seen[n] > 1 else n for n, o in zip(names, owners))
         self.owners = tuple(owners)
-        self.s_idx = np.nonzero(self.lay.mask)[0]
-        self._lb = self.lay.log_beta(self.t_c)
+        # fraction of its system for system species: column of the system's total
+        col = {s.name: st.sys_comp[k] for k, s in enumerate(st.systems)}
+        self.frac_col = np.array([col.get(o, -1) if st.species[r].kind == "system" else -1
+                                  for r, o in zip(rows, owners)], dtype=int)
 
-    def batch(self, weights: np.ndarray, t_c: np.ndarray | None = None, start=None):
-        """Solve the points with these weights (and temperatures); ``start`` = (pH, I) guesses."""
-        p = weights.shape[0]
-        if t_c is None:
-            lb, t = np.broadcast_to(self._lb, (p,) + self._lb.shape[1:]), self.t_c
-        else:
-            lb, t = self.lay.log_beta(t_c), t_c
-        x0, i0 = (None, None) if start is None else (-start[0], start[1])
-        return solve_batch(self.lay, lb, weights @ self.tot, weights @ self.q, weights @ self.i, t, self.model,
-                           x0=x0, i0=i0)
+    def totals(self, weights: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """Per-point totals with zeros replaced (for the kernel), and which components are really zero."""
+        tot = weights @ self.tot
+        low = tot <= 0.0
+        low[:, 0] = False
+        zero = low & ~self.st.supplied[None, :]
+        return np.where(low, TINY_TOTAL, tot), zero
+
+    def solve(self, weights: np.ndarray, t_c: np.ndarray | None = None, start=None, *, fixed_ph=None,
+              pressures=None, fixed_ionic=None, allowed=None):
+        """Solve the points; ``start`` = (u, I) guesses.  Returns (inputs, result, zero mask)."""
+        tot, zero = self.totals(weights)
+        inp = kernel_inputs(self.prob, t_c=t_c, totals=tot, inert_i=weights @ self.inert_i,
+                            pressures=pressures, fixed_ph=fixed_ph, fixed_ionic=fixed_ionic, allowed=allowed)
+        u0, i0 = (None, None) if start is None else start
+        res = run_kernel(self.prob, inp, u0=u0, i0=i0, fixed_ph=fixed_ph)
+        return inp, res, zero
+
+    def table(self, inp, res, zero, t_c=None) -> dict[str, np.ndarray]:
+        """pH, ionic strength, species (conc, fraction), solids and gases of solved points."""
+        st = self.st
+        conc = res.conc[:, self.rows]
+        if zero.any():
+            holds = (st.nu[self.rows][None, :, :] != 0) & zero[:, None, :]
+            conc = np.where(holds.any(axis=2), 0.0, conc)
+        frac = np.full(conc.shape, np.nan)
+        sys_cols = self.frac_col >= 0
+        if sys_cols.any():
+            frac[:, sys_cols] = res.conc[:, self.rows[sys_cols]] / inp.totals[:, self.frac_col[sys_cols]]
+        out = {"pH": -res.u[:, 0] / LN10, "ionic": np.array(res.ionic), "conc": conc, "fraction": frac,
+               "converged": np.array(res.converged), "u": res.u}
+        if st.solids:
+            out["si"] = (res.u @ st.sol_a.T - inp.sol_b) / LN10
+            out["amounts"] = np.array(res.amounts)
+        if st.gases:
+            lnk = inp.lnk
+            t = np.broadcast_to(np.asarray(self.t_c if t_c is None else t_c, dtype=float), (lnk.shape[0],))
+            kh = LN10 * st.gas_kh.at(t)                      # (P, gases)
+            p = []
+            for g in range(len(st.gases)):
+                r = st.gas_row[g]
+                p.append(np.exp(lnk[:, r] + res.u @ st.nu[r] - kh[:, g]))
+            out["gas_p"] = np.column_stack(p)
+        return out
 
     def run(self, weights: np.ndarray, t_c: np.ndarray | None = None,
-            d_weights: np.ndarray | None = None, start=None) -> dict[str, np.ndarray]:
+            d_weights: np.ndarray | None = None, start=None, pressures=None) -> dict[str, np.ndarray]:
         """Solve every point; with ``d_weights``, also dpH per unit of the curve parameter."""
-        b = self.batch(weights, t_c, start)
-        totals = weights @ self.tot
-        alpha = b.alpha[:, self.lay.mask]
-        conc = np.column_stack([b.h, b.oh, totals[:, self.s_idx] * alpha])
-        frac = np.column_stack([np.full((b.x.size, 2), np.nan), alpha])
-        out = {"pH": -b.x, "ionic": np.array(b.ionic), "conc": conc, "fraction": frac,
-               "converged": np.array(b.converged)}
+        inp, res, zero = self.solve(weights, t_c, start, pressures=pressures)
+        out = self.table(inp, res, zero, t_c)
         if d_weights is not None:
-            out["dpH"] = -b.sensitivity(d_weights @ self.tot, d_weights @ self.q, d_weights @ self.i)
+            y = K.sensitivity(inp, res, d_totals=d_weights @ self.tot, d_inert_i=d_weights @ self.inert_i)
+            out["dpH"] = -y[:, 0] / LN10
+            out["du"] = y[:, :self.st.n_components]
         return out
 
     def run_chunked(self, weights: np.ndarray, t_c: np.ndarray | None,
-                    progress: Progress | None) -> dict[str, np.ndarray]:
+                    progress: Progress | None, pressures: np.ndarray | None = None) -> dict[str, np.ndarray]:
         """:meth:`run` in chunks of at most ``_CHUNK`` points, reporting progress after each."""
         n = weights.shape[0]
         pieces = []
         for start in range(0, n, _CHUNK):
             stop = min(start + _CHUNK, n)
-            pieces.append(self.run(weights[start:stop], None if t_c is None else t_c[start:stop]))
+            pieces.append(self.run(weights[start:stop], None if t_c is None else t_c[start:stop],
+                                   pressures=None if pressures is None else pressures[start:stop]))
             _report(progress, stop / n)
         return {k: np.concatenate([p[k] for p in pieces]) for k in pieces[0]}
+
+
+def _owner_name(info) -> str:
+    if info.kind == "water":
+        return "water"
+    if info.kind == "complex":
+        return "complex"
+    if info.kind == "strong":
+        return "strong"
+    return info.owner.name
 
 
 def _report(progress: Progress | None, fraction: float) -> None:
@@ -265,10 +324,15 @@ def _report(progress: Progress | None, fraction: float) -> None:
 
 def _make_curve(cls, kind: str, x: np.ndarray, x_label: str, res: dict, fam: _Family, mixture: Mixture,
                 build: Callable[[int], Mixture], **extra):
+    st = fam.st
+    n = np.asarray(x).size
     return cls(kind=kind, x=np.asarray(x, dtype=float), x_label=x_label, pH=res["pH"],
                ionic_strength=res["ionic"], species=fam.species, species_system=fam.owners,
                conc=res["conc"], fraction=res["fraction"], converged=res["converged"], mixture=mixture,
-               _build=build, **extra)
+               _build=build, solids=tuple(s.name for s in st.solids),
+               saturation=res.get("si", np.zeros((n, 0))), amounts=res.get("amounts", np.zeros((n, 0))),
+               gases=tuple(g.name for g in st.gases), gas_pressure=res.get("gas_p", np.zeros((n, 0))),
+               **extra)
 
 
 # --------------------------------------------------------------------------
@@ -340,7 +404,8 @@ def _is_called(reagent: Reagent, name: str) -> bool:
 
 def titration(mixture: Mixture, titrant: Reagent, titrant_conc: float, sample_volume_L: float,
               to_volume_L: float, *, from_volume_L: float = 0.0, points: int = 201, max_step: float = 0.05,
-              max_points: int = 20000, progress: Progress | None = None) -> TitrationCurve:
+              max_points: int = 20000, track: str | None = None,
+              progress: Progress | None = None) -> TitrationCurve:
     """pH vs volume of titrant added to a sample of ``mixture``, with equivalence points.
 
     Adding V of titrant stock (concentration c_t) to a sample of volume V0
@@ -372,6 +437,11 @@ def titration(mixture: Mixture, titrant: Reagent, titrant_conc: float, sample_vo
         Largest pH difference left between neighbouring points (default 0.05).
     max_points : int, optional
         Cap on the number of points after refinement.
+    track : str, optional
+        A species (e.g. "Ca^2+") whose level pX = −log10 a(X) is followed
+        besides the pH: the curve is refined where pX changes fast and the
+        equivalence points are the clear maxima of |dpX/dV| (a complexometric
+        titration).  Default: the pH.
     progress : callable, optional
         Called with the fraction done; return False to cancel.
 
@@ -379,7 +449,8 @@ def titration(mixture: Mixture, titrant: Reagent, titrant_conc: float, sample_vo
     -------
     TitrationCurve
         ``x`` is the added volume in mL, ``volume_L`` in L; ``slope`` is dpH/dV
-        in pH per mL; ``equivalence_points`` in order of volume.
+        in pH per mL; ``equivalence_points`` in order of volume (of pX when
+        ``track`` is given, with ``level``/``level_slope`` its values).
     """
     if not isinstance(titrant, Reagent):
         raise CurveError(f"titrant must be a reagent (got {titrant!r})")
@@ -406,15 +477,30 @@ def titration(mixture: Mixture, titrant: Reagent, titrant_conc: float, sample_vo
     def d_weights(v):       # per litre of titrant
         return np.column_stack([-v0 / (v0 + v) ** 2, c_t * v0 / (v0 + v) ** 2])
 
+    st = fam.st
+    if track is not None:
+        names = [info.name for info in st.species]
+        if track not in names:
+            raise CurveError(f"no species '{track}' in this titration (species: {', '.join(names)})")
+        r = names.index(track)
+        nu_r = st.nu[r]
+        lk_r = LN10 * float(st.log_k_at(fam.t_c)[r])
+
     def run(v, start=None):
-        return fam.run(weights(v), None, d_weights(v), start)
+        out = fam.run(weights(v), None, d_weights(v), start)
+        if track is not None:
+            out["level"] = -(lk_r + out["u"] @ nu_r) / LN10
+            out["dlevel"] = -(out["du"] @ nu_r) / LN10
+        else:
+            out["level"], out["dlevel"] = out["pH"], out["dpH"]
+        return out
 
     v = np.linspace(v_from, v_to, points)
     res = run(v)
     _report(progress, 0.2)
     min_width = 1e-12 * (v_to - v_from)
     for n_pass in range(80):
-        dph = np.abs(np.diff(res["pH"]))
+        dph = np.maximum(np.abs(np.diff(res["pH"])), np.abs(np.diff(res["level"])))
         need = np.nonzero((dph > max_step) & (np.diff(v) > min_width))[0]
         room = max_points - v.size
         if need.size == 0 or room <= 0:
@@ -431,7 +517,7 @@ def titration(mixture: Mixture, titrant: Reagent, titrant_conc: float, sample_vo
         step = np.concatenate([np.arange(1, k) / k for k in parts])
         lo, hi = need[owner], need[owner] + 1
         new_v = v[lo] + (v[hi] - v[lo]) * step
-        start = (res["pH"][lo] + (res["pH"][hi] - res["pH"][lo]) * step,
+        start = (res["u"][lo] + (res["u"][hi] - res["u"][lo]) * step[:, None],
                  res["ionic"][lo] + (res["ionic"][hi] - res["ionic"][lo]) * step)
         new = run(new_v, start)
         v = np.concatenate([v, new_v])
@@ -441,7 +527,7 @@ def titration(mixture: Mixture, titrant: Reagent, titrant_conc: float, sample_vo
         _report(progress, 0.2 + 0.6 * (1.0 - 0.7 ** (n_pass + 1)))
     _report(progress, 0.8)
     slope = res["dpH"] / 1000.0
-    eqp = _equivalence_points(v, slope, res, run)
+    eqp = _equivalence_points(v, res["dlevel"] / 1000.0, res, run)
     _report(progress, 1.0)
 
     def build(i: int) -> Mixture:
@@ -450,7 +536,9 @@ def titration(mixture: Mixture, titrant: Reagent, titrant_conc: float, sample_vo
 
     return _make_curve(TitrationCurve, "titration", v * 1000.0, "volume_mL", res, fam, mixture, build,
                        volume_L=v, slope=slope, equivalence_points=eqp, titrant=titrant,
-                       titrant_conc=c_t, sample_volume_L=v0)
+                       titrant_conc=c_t, sample_volume_L=v0, track=track,
+                       level=res["level"] if track else None,
+                       level_slope=res["dlevel"] / 1000.0 if track else None)
 
 
 #: A maximum of |dpH/dV| counts as an equivalence point when it is at least
@@ -482,15 +570,15 @@ def _equivalence_points(v: np.ndarray, slope: np.ndarray, res: dict, run) -> tup
         return ()
     idx = np.array(idx)
     lo, hi = v[idx - 1].copy(), v[idx + 1].copy()
-    start_ph, start_i = res["pH"][idx], res["ionic"][idx]
+    start_u, start_i = res["u"][idx], res["ionic"][idx]
     k_grid = 33
     frac = np.linspace(0.0, 1.0, k_grid)
     rows = np.arange(idx.size)
     best = v[idx].copy()
     for _ in range(10):
         grid = lo[:, None] + (hi - lo)[:, None] * frac[None, :]
-        out = run(grid.ravel(), (np.repeat(start_ph, k_grid), np.repeat(start_i, k_grid)))
-        s = np.abs(out["dpH"]).reshape(idx.size, k_grid)
+        out = run(grid.ravel(), (np.repeat(start_u, k_grid, axis=0), np.repeat(start_i, k_grid)))
+        s = np.abs(out["dlevel"]).reshape(idx.size, k_grid)
         k = np.argmax(s, axis=1)
         kl, kr = np.maximum(k - 1, 0), np.minimum(k + 1, k_grid - 1)
         # vertex of the parabola through the three points around the maximum
@@ -501,14 +589,15 @@ def _equivalence_points(v: np.ndarray, slope: np.ndarray, res: dict, run) -> tup
         with np.errstate(all="ignore"):
             shift = np.where(inner & (den < 0), 0.5 * h * (s0 - s2) / den, 0.0)
         best = grid[rows, k] + np.clip(shift, -h, h)
-        start_ph = out["pH"].reshape(idx.size, k_grid)[rows, k]
+        start_u = out["u"].reshape(idx.size, k_grid, -1)[rows, k]
         start_i = out["ionic"].reshape(idx.size, k_grid)[rows, k]
         lo, hi = grid[rows, kl], grid[rows, kr]
         if np.all(hi - lo <= 1e-11 * (v[-1] - v[0])):
             break
-    final = run(best, (start_ph, start_i))
-    return tuple(EquivalencePoint(volume_L=float(b), pH=float(p), slope=float(d) / 1000.0)
-                 for b, p, d in zip(best, final["pH"], final["dpH"]))
+    final = run(best, (start_u, start_i))
+    return tuple(EquivalencePoint(volume_L=float(b), pH=float(p), slope=float(d) / 1000.0, level=float(lv),
+                                  level_slope=float(dl) / 1000.0)
+                 for b, p, d, lv, dl in zip(best, final["pH"], final["dpH"], final["level"], final["dlevel"]))
 
 
 # --------------------------------------------------------------------------
@@ -547,33 +636,22 @@ def buffer_capacity(mixture: Mixture, ph=None, *, progress: Progress | None = No
     """
     ph = _values(default_grid() if ph is None else ph, "pH values", -2.0, 16.0, "")
     fam = _Family(mixture, [mixture.ingredients])
-    x = -ph
     n = ph.size
-    lb = np.broadcast_to(fam._lb, (n,) + fam._lb.shape[1:])
-    totals = np.broadcast_to(fam.tot[0], (n, fam.tot.shape[1]))
-    q, i_s = fam.q[0], fam.i[0]
-    # sign of the added base: acid below the mixture's own pH, base from it upwards
-    own = solve(mixture)
-    side = np.where(ph < own.pH, -1.0, 1.0)
-    ionic = np.full(n, own.ionic_strength)
-    converged = np.zeros(n, dtype=bool)
-    for _ in range(100):
-        # C_b = -F(x, I); the counter-ion adds |C_b| / 2 to the ionic strength
-        ev = evaluate_at(fam.lay, lb, totals, q, fam.t_c, fam.model, x, ionic)
-        h = i_s + 0.5 * (ev["ez2"] + ev["hc"] + ev["ohc"]) - 0.5 * side * ev["f"] - ionic
-        step = h / (ev["gi"] - 0.5 * side * ev["fi"])
-        new = ionic - step
-        new = np.where(new > 0.1 * ionic, new, 0.1 * ionic)
-        converged = np.abs(new - ionic) <= 1e-12 * new + 1e-18
-        ionic = new
-        if converged.all():
-            break
-    _report(progress, 0.9)
-    ev = evaluate_at(fam.lay, lb, totals, q, fam.t_c, fam.model, x, ionic)
-    det = ev["fx"] * ev["gi"] - ev["fi"] * ev["gx"]
-    beta = det / (ev["gi"] - 0.5 * side * ev["fi"])
+    pieces = []
+    for start in range(0, n, _CHUNK):
+        stop = min(start + _CHUNK, n)
+        w = np.ones((stop - start, 1))
+        inp, res, _ = fam.solve(w, fixed_ph=ph[start:stop])
+        row = inp.counter_row
+        d_rhs = np.zeros((stop - start, inp.eq_rows.shape[0]))
+        d_rhs[:, row] = -LN10
+        y = K.sensitivity(inp, res, d_eq_rhs=d_rhs)
+        nc = fam.st.n_components
+        pieces.append((y[:, nc + 1 + row], res.eq_mult[:, row], np.array(res.ionic), np.array(res.converged)))
+        _report(progress, stop / n)
+    beta, added, ionic, converged = (np.concatenate([p[k] for p in pieces]) for k in range(4))
     _report(progress, 1.0)
-    return CapacityCurve(pH=ph, beta=beta, added_base=-ev["f"], ionic_strength=ionic, converged=converged,
+    return CapacityCurve(pH=ph, beta=beta, added_base=added, ionic_strength=ionic, converged=converged,
                          mixture=mixture)
 
 
@@ -614,6 +692,29 @@ def dilution(mixture: Mixture, factors=None, *, points: int = 61,
     return _make_curve(Curve, "dilution", f, "dilution_factor", res, fam, mixture, build)
 
 
+#: A gas "held at 0" is held at this partial pressure (atm): the open system's limit.
+MIN_PRESSURE_ATM = 1e-15
+
+
+def gas_named(mixture: Mixture, vary):
+    """The gas ``vary`` names (a fixed gas of the mixture, a custom or a library gas), or None."""
+    if not isinstance(vary, str):
+        return None
+    key = normalise(vary)
+    for g in mixture.gases:
+        if key in {normalise(g.gas.name), *(normalise(a) for a in g.gas.aliases)}:
+            return g.gas
+    for g in mixture.custom_gases:
+        if key == normalise(g.name):
+            return g
+    if key == "temperature" or any(_is_called(i.reagent, vary) for i in mixture.ingredients):
+        return None
+    try:
+        return load_library().gas(vary)
+    except ChemError:
+        return None
+
+
 def ingredient_index(mixture: Mixture, vary) -> int:
     """Index in ``mixture.ingredients`` of an ingredient given by index or by reagent name, alias or formula."""
     n = len(mixture.ingredients)
@@ -641,18 +742,38 @@ def sweep(mixture: Mixture, vary, values, *, progress: Progress | None = None) -
         The mixture; everything except ``vary`` stays as it is.
     vary : str or int
         An ingredient (reagent name, alias or formula, or its index in
-        ``mixture.ingredients``), or "temperature".
+        ``mixture.ingredients``), "temperature", or a gas (a library gas
+        such as "CO2", or one the mixture holds), which is then held over
+        the solution at each pressure.
     values : array_like
-        The ingredient's concentration in mol/L (0..20), or the temperature
-        in °C (0..100).
+        The ingredient's concentration in mol/L (0..20), the temperature
+        in °C (0..100), or the gas's partial pressure in atm (0 is the
+        open system's limit: the gas is stripped).
     progress : callable, optional
         Called with the fraction done; return False to cancel.
 
     Returns
     -------
     Curve
-        ``x`` is ``values``; ``x_label`` is "temperature_C" or "<reagent>_M".
+        ``x`` is ``values``; ``x_label`` is "temperature_C", "<reagent>_M" or "<gas>_atm".
     """
+    gas = gas_named(mixture, vary)
+    if gas is not None:
+        p = _values(values, f"{gas.name} pressures", 0.0, 1000.0, " atm")
+        held = np.maximum(p, MIN_PRESSURE_ATM)
+        base = mixture.with_gas(FixedGas(gas, float(held[0])))
+        fam = _Family(base, [base.ingredients])
+        st = fam.st
+        k = [st.gases[g].name for g in st.fixed].index(gas.name)
+        pressures = np.tile(fam.prob.pressures, (p.size, 1))
+        pressures[:, k] = held
+        res = fam.run_chunked(np.ones((p.size, 1)), None, progress, pressures)
+
+        def build_g(i: int) -> Mixture:
+            return mixture.with_gas(FixedGas(gas, float(held[i])))
+
+        return _make_curve(Curve, "sweep", p, f"{gas.name}_atm", res, fam, mixture, build_g)
+
     if isinstance(vary, str) and normalise(vary) == "temperature":
         t = _values(values, "temperatures", T_MIN_C, T_MAX_C, " °C")
         fam = _Family(mixture, [mixture.ingredients])

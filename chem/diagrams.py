@@ -1,8 +1,15 @@
-"""Speciation across pH: distribution (fraction vs pH) and log C vs pH.
+"""Speciation across pH: distribution, log C, solubility and saturation vs pH.
 
-These diagrams hold the ionic strength fixed (at the value of the solved
-mixture unless given), so each species' conditional constants are fixed and
-the fractions are explicit functions of pH; no root finding is needed.
+* :func:`distribution` and :func:`log_concentrations` hold the ionic
+  strength fixed (at the value given, usually the solved mixture's).  For an
+  acid–base mixture each system's fractions are then explicit functions of
+  pH (no root finding); with complexes, ``log_concentrations`` solves the
+  mixture at each pH with the pH imposed.
+* :func:`system_distribution`, :func:`solubility` and :func:`saturation`
+  impose the pH as a pH-stat would (strong acid or base with a monovalent
+  counter-ion, which adds to the ionic strength), keep the mixture's totals,
+  and solve the full equilibrium at each point (ionic strength
+  self-consistent).
 """
 
 from __future__ import annotations
@@ -11,23 +18,24 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from . import water
-from ._solver import SIZE_H, SIZE_OH, layout_for
-from .water import LN10
-from .activity import log_gamma
-from .model import AcidBaseSystem, Mixture
+from . import _kernel as K
+from ._solver import kernel_inputs, layout_of, run_kernel, water_constants
+from .errors import ChemError, ModelError
+from .model import Mixture
+from .problem import LN10, compile
 
 
 @dataclass(frozen=True)
 class Diagram:
-    """Curves over a pH grid: ``series`` maps a species name to an array."""
+    """Curves over a pH grid: ``series`` maps a species (or solid, or system) name to an array."""
 
     ph: np.ndarray
     series: dict[str, np.ndarray]
     systems: dict[str, tuple[str, ...]]
-    """System name -> its species names, in ``series``."""
+    """System name -> its series names."""
     ionic_strength: float
     temperature_c: float
+    converged: np.ndarray | None = None
 
     def __post_init__(self) -> None:
         self.ph.setflags(write=False)
@@ -42,27 +50,36 @@ def default_grid(points: int = 400) -> np.ndarray:
     return np.linspace(0.0, 14.0, points)
 
 
-def _fractions_all(systems: tuple[AcidBaseSystem, ...], ph: np.ndarray, t_c: float, model: str,
-                   ionic: float) -> np.ndarray:
-    """Fractions of every species of every system, shape (points, systems, width).
+def _fractions(st, ph: np.ndarray, t_c: float, ionic: float) -> tuple[np.ndarray, np.ndarray]:
+    """Fractions of every system's own species at each pH, at fixed ionic strength (acid–base only).
 
-    One padded computation for all systems (padding gives fraction 0).
+    Returns (fractions (points, S, M), the padded layout's mask (S, M)).
     """
-    lay = layout_for(systems)
-    a = float(water.debye_huckel_a(t_c))
-    b = float(water.debye_huckel_b(t_c))
-    lg = log_gamma(model, lay.z * lay.z, lay.size, ionic, a, b)
-    base = lay.log_beta(t_c)[0] - lg                        # (S, M)
-    w = base[None, :, :] - lay.j[None, :, :] * ph[:, None, None]
+    lay = layout_of(st)
+    _, a, b = water_constants(t_c)
+    inp = _gamma_inputs(st, a, b)
+    lng = K.ln_gamma(inp, np.zeros(1, dtype=int), np.array([ionic]))[0]
+    lnk = LN10 * st.logk.at(t_c)
+    base = np.where(lay.mask, lnk[lay.rows] - lng[lay.rows], -np.inf)
+    w = base[None, :, :] - lay.j[None, :, :] * (LN10 * ph)[:, None, None]
     w -= w.max(axis=2, keepdims=True)
-    e = np.exp(w * LN10)
+    e = np.exp(w)
     e /= e.sum(axis=2, keepdims=True)
-    return e
+    return e, lay.mask
+
+
+class _gamma_inputs:       # the fields K.ln_gamma reads
+    def __init__(self, st, a, b):
+        self.model = st.model
+        self.a = np.array([a])
+        self.b = np.array([b])
+        self.z2 = st.z2
+        self.size = st.size
 
 
 def distribution(mixture: Mixture, ph=None, *, ionic_strength: float | None = None,
                  systems: tuple[str, ...] | None = None) -> Diagram:
-    """Fraction of each species of each system vs pH.
+    """Fraction of each species of each system (among the system's own species) vs pH.
 
     Parameters
     ----------
@@ -78,11 +95,15 @@ def distribution(mixture: Mixture, ph=None, *, ionic_strength: float | None = No
     """
     ph = np.asarray(default_grid() if ph is None else ph, dtype=float)
     ionic = 0.0 if ionic_strength is None else float(ionic_strength)
-    chosen = tuple(s for s, _ in mixture.systems() if systems is None or s.name in systems)
-    frac = _fractions_all(chosen, ph, mixture.temperature_c, mixture.activity, ionic)
+    st = compile(mixture).structure
+    frac, mask = _fractions(st, ph, mixture.temperature_c, ionic)
     series: dict[str, np.ndarray] = {}
     owners: dict[str, tuple[str, ...]] = {}
-    for i, sys_ in enumerate(chosen):
+    for i, sys_ in enumerate(st.systems):
+        if systems is not None and sys_.name not in systems:
+            continue
+        if sys_.steps == 0:
+            continue
         for k, name in enumerate(sys_.species):
             series[name] = frac[:, i, k]
         owners[sys_.name] = sys_.species
@@ -91,29 +112,135 @@ def distribution(mixture: Mixture, ph=None, *, ionic_strength: float | None = No
 
 def log_concentrations(mixture: Mixture, ph=None, *, ionic_strength: float | None = None,
                        floor: float = -14.0) -> Diagram:
-    """log10 of each species' concentration (mol/L) vs pH, with H+ and OH-.
+    """log10 of each species' concentration (mol/L) vs pH, with H+, OH- and complexes.
 
-    Values below ``floor`` are clipped to it so plots stay readable.
+    Values below ``floor`` are clipped to it so plots stay readable (pass
+    ``floor=-np.inf`` for the true values).
     """
     ph = np.asarray(default_grid() if ph is None else ph, dtype=float)
     ionic = 0.0 if ionic_strength is None else float(ionic_strength)
     t = mixture.temperature_c
-    a = float(water.debye_huckel_a(t))
-    b = float(water.debye_huckel_b(t))
-    lg_h = float(log_gamma(mixture.activity, 1.0, SIZE_H, ionic, a, b))
-    lg_oh = float(log_gamma(mixture.activity, 1.0, SIZE_OH, ionic, a, b))
-    pkw = float(water.pkw(t))
-    series: dict[str, np.ndarray] = {
-        "H+": np.maximum(-ph - lg_h, floor),
-        "OH-": np.maximum(ph - pkw - lg_oh, floor),
-    }
+    prob = compile(mixture)
+    st = prob.structure
+    series: dict[str, np.ndarray] = {}
     owners: dict[str, tuple[str, ...]] = {"water": ("H+", "OH-")}
-    pairs = tuple((s, c) for s, c in mixture.systems() if c > 0)
-    frac = _fractions_all(tuple(s for s, _ in pairs), ph, t, mixture.activity, ionic)
+    converged = None
     with np.errstate(divide="ignore"):
-        logc = np.maximum(np.log10(frac * np.array([c for _, c in pairs])[None, :, None]), floor)
-    for i, (sys_, _total) in enumerate(pairs):
-        for k, name in enumerate(sys_.species):
-            series[name] = logc[:, i, k]
-        owners[sys_.name] = sys_.species
-    return Diagram(ph.copy(), series, owners, ionic, t)
+        if not st.complexes:
+            pkw, a, b = water_constants(t)
+            inp = _gamma_inputs(st, a, b)
+            lng = K.ln_gamma(inp, np.zeros(1, dtype=int), np.array([ionic]))[0] / LN10
+            series["H+"] = np.maximum(-ph - lng[0], floor)
+            series["OH-"] = np.maximum(ph - pkw - lng[1], floor)
+            frac, _ = _fractions(st, ph, t, ionic)
+            for i, sys_ in enumerate(st.systems):
+                total = prob.totals[st.sys_comp[i]]
+                if prob.zero[st.sys_comp[i]]:
+                    continue
+                for k, name in enumerate(sys_.species):
+                    series[name] = np.maximum(np.log10(frac[:, i, k] * total), floor)
+                owners[sys_.name] = sys_.species
+        else:
+            inp = kernel_inputs(prob, fixed_ph=ph, fixed_ionic=np.full(ph.size, ionic))
+            res = run_kernel(prob, inp, fixed_ph=ph)
+            converged = np.array(res.converged)
+            logc = np.log10(res.conc)
+            for r, info in enumerate(st.species):
+                if info.kind == "strong":
+                    continue
+                if any(prob.zero[j] for j in np.nonzero(st.nu[r])[0]):
+                    continue
+                series[info.name] = np.maximum(logc[:, r], floor)
+                key = "water" if info.kind == "water" else ("complex" if info.kind == "complex"
+                                                            else info.owner.name)
+                if key != "water":
+                    owners[key] = owners.get(key, ()) + (info.name,)
+    return Diagram(ph.copy(), series, owners, ionic, t, converged)
+
+
+def _held(mixture: Mixture, ph: np.ndarray, *, solid: str | None = None):
+    """Solve ``mixture`` at every pH with the pH imposed (ionic strength self-consistent).
+
+    With ``solid``, that solid is held saturated throughout (an excess of it
+    is present).  Returns (problem, inputs, result).
+    """
+    prob = compile(mixture)
+    st = prob.structure
+    inp = kernel_inputs(prob, fixed_ph=ph)
+    if solid is not None:
+        names = [s.name for s in st.solids]
+        if solid not in names:
+            raise ModelError(f"solid '{solid}' cannot form in this mixture"
+                             + (f" (candidates: {', '.join(names)})" if names else " (it has no candidate solids)"))
+        q = names.index(solid)
+        inp.eq_rows = np.vstack([inp.eq_rows, st.sol_a[q][None]])
+        inp.eq_rhs = np.column_stack([inp.eq_rhs, inp.sol_b[:, q]])
+        keep = np.ones(len(names), dtype=bool)
+        keep[q] = False
+        inp.allowed = inp.allowed & keep[None, :]
+    res = run_kernel(prob, inp, fixed_ph=ph)
+    return prob, inp, res
+
+
+def system_distribution(mixture: Mixture, system: str, ph=None) -> Diagram:
+    """Every species and solid holding ``system``, as its share of the system's total, vs pH.
+
+    The pH is imposed at each point (a pH-stat) and the mixture's totals
+    stay as given; solids form where the mixture allows them.
+    """
+    ph = np.asarray(default_grid() if ph is None else ph, dtype=float)
+    prob, inp, res = _held(mixture, ph)
+    st = prob.structure
+    names = {s.name: k for k, s in enumerate(st.systems)}
+    key = next((n for n in names if n.casefold() == system.strip().casefold()), None)
+    if key is None:
+        raise ModelError(f"no system '{system}' in this mixture (systems: {', '.join(names) or 'none'})")
+    k = names[key]
+    col = st.sys_comp[k]
+    total = prob.totals[col]
+    if prob.zero[col]:
+        raise ModelError(f"system '{key}' has a total of 0 in this mixture")
+    series: dict[str, np.ndarray] = {}
+    held = np.nonzero(st.nu[:, col])[0]
+    for r in held:
+        series[st.species[r].name] = st.nu[r, col] * res.conc[:, r] / total
+    for q, so in enumerate(st.solids):
+        n = st.sol_a[q, col]
+        if n:
+            series[so.name] = n * res.amounts[:, q] / total
+    return Diagram(ph.copy(), series, {key: tuple(series)}, float("nan"), mixture.temperature_c,
+                   np.array(res.converged))
+
+
+def solubility(mixture: Mixture, solid: str, ph=None) -> Diagram:
+    """Dissolved total of each system ``solid`` holds (mol/L) vs pH, with an excess of the solid present.
+
+    The pH is imposed at each point; the solid is held saturated (it
+    dissolves or grows as needed); the mixture's other amounts, fixed gases
+    and precipitation setting stay as given.
+    """
+    ph = np.asarray(default_grid() if ph is None else ph, dtype=float)
+    try:
+        prob, inp, res = _held(mixture, ph, solid=solid)
+    except ChemError:
+        raise
+    st = prob.structure
+    q = [s.name for s in st.solids].index(solid)
+    series: dict[str, np.ndarray] = {}
+    for k, sys_ in enumerate(st.systems):
+        col = st.sys_comp[k]
+        if st.sol_a[q, col]:
+            series[sys_.name] = res.conc @ st.nu[:, col]
+    return Diagram(ph.copy(), series, {solid: tuple(series)}, float("nan"), mixture.temperature_c,
+                   np.array(res.converged))
+
+
+def saturation(mixture: Mixture, ph=None) -> Diagram:
+    """Saturation index of every candidate solid vs pH (pH imposed, totals as given)."""
+    ph = np.asarray(default_grid() if ph is None else ph, dtype=float)
+    prob, inp, res = _held(mixture, ph)
+    st = prob.structure
+    si = (res.u @ st.sol_a.T - inp.sol_b) / LN10
+    series = {so.name: si[:, q] for q, so in enumerate(st.solids)}
+    return Diagram(ph.copy(), series, {"solids": tuple(series)}, float("nan"), mixture.temperature_c,
+                   np.array(res.converged))

@@ -24,22 +24,34 @@ import tomli_w
 
 from .activity import MODELS
 from .errors import ChemError, PresetError
-from .library import Library, load_library
-from .model import AcidBaseSystem, Ingredient, Mixture, Reagent, charge_label
-from .units import parse_concentration
+from .library import WATER_IONS, Library, load_library, resolve
+from .model import (MAX_ABS_DH_KJ, AcidBaseSystem, Complex, FixedGas, Gas, Ingredient, Mixture, Reagent, Solid,
+                    charge_from_name, charge_label)
+from .units import parse_concentration, parse_pressure
 
 FORMAT = 1
-_TOP_KEYS = {"format", "title", "temperature_c", "activity", "notes", "ingredient", "custom"}
+_TOP_KEYS = {"format", "title", "temperature_c", "activity", "notes", "ingredient", "custom", "precipitate", "gas",
+             "custom_complex", "custom_solid", "custom_gas"}
 _INGREDIENT_KEYS = {"name", "conc"}
 _CUSTOM_KEYS = {"name", "pKa", "dH_kJ", "dCp_J", "ion_size_A", "charge_fully_protonated", "protons",
-                "counter_ions", "species", "molar_mass", "source"}
+                "counter_ions", "species", "molar_mass", "source", "ionic_strength_M", "pKa_sd"}
 _CUSTOM_REQUIRED = {"name", "pKa", "charge_fully_protonated", "protons"}
+_REACTION_KEYS = {"name", "reaction", "log_K", "dH_kJ", "ionic_strength_M", "log_K_sd", "source"}
+_KIND_KEYS = {
+    "custom_complex": _REACTION_KEYS | {"ion_size_A"},
+    "custom_solid": _REACTION_KEYS | {"formula"},
+    "custom_gas": _REACTION_KEYS | {"formula"},
+}
+_GAS_KEYS = {"name", "pressure"}
 
 
 def _num(value, where: str, *, lo: float | None = None, hi: float | None = None) -> float:
     if isinstance(value, bool) or not isinstance(value, (int, float)):
-        raise PresetError(f"{where}: expected a number, got {type(value).__name__} {value!r}")
-    v = float(value)
+        raise PresetError(f"{where}: expected a number, got {type(value).__name__} {_quote(value)}")
+    try:
+        v = float(value)
+    except OverflowError:
+        raise PresetError(f"{where}: number too large") from None
     if not math.isfinite(v):
         raise PresetError(f"{where}: must be a finite number")
     if lo is not None and v < lo or hi is not None and v > hi:
@@ -49,56 +61,96 @@ def _num(value, where: str, *, lo: float | None = None, hi: float | None = None)
 
 def _int(value, where: str, *, lo: int | None = None, hi: int | None = None) -> int:
     if isinstance(value, bool) or not isinstance(value, int):
-        raise PresetError(f"{where}: expected a whole number, got {value!r}")
+        raise PresetError(f"{where}: expected a whole number, got {_quote(value)}")
     if lo is not None and value < lo or hi is not None and value > hi:
-        raise PresetError(f"{where}: {value} is outside {lo}..{hi}")
+        raise PresetError(f"{where}: {_quote(value)} is outside {lo}..{hi}")
     return value
 
 
 def _str(value, where: str) -> str:
     if not isinstance(value, str):
-        raise PresetError(f"{where}: expected text, got {type(value).__name__} {value!r}")
+        raise PresetError(f"{where}: expected text, got {type(value).__name__} {_quote(value)}")
     return value
 
 
-def _num_list(value, where: str) -> tuple[float, ...]:
-    if not isinstance(value, list) or not value:
-        raise PresetError(f"{where}: expected a non-empty list of numbers")
+def _quote(value, limit: int = 60) -> str:
+    """A readable, bounded rendering of user input for error messages."""
+    text = repr(value)
+    return text if len(text) <= limit else text[:limit - 1] + "…"
+
+
+def _num_list(value, where: str, *, allow_empty: bool = False) -> tuple[float, ...]:
+    if not isinstance(value, list) or (not value and not allow_empty):
+        raise PresetError(f"{where}: expected a {'list' if allow_empty else 'non-empty list'} of numbers")
     return tuple(_num(v, f"{where}[{i + 1}]") for i, v in enumerate(value))
+
+
+def _check_table(entry, allowed: set, where: str) -> None:
+    if not isinstance(entry, dict):
+        raise PresetError(f"{where}: expected a table")
+    unknown = set(entry) - allowed
+    if unknown:
+        raise PresetError(f"{where}: unknown key '{_clip(sorted(unknown)[0])}' (allowed: {', '.join(sorted(allowed))})")
+
+
+def _clip(text: str, limit: int = 40) -> str:
+    return text if len(text) <= limit else text[:limit - 1] + "…"
 
 
 def custom_reagent(entry: dict, where: str, library: Library) -> Reagent:
     """Build the system and reagent defined by one ``[[custom]]`` table."""
-    if not isinstance(entry, dict):
-        raise PresetError(f"{where}: expected a table")
-    unknown = set(entry) - _CUSTOM_KEYS
-    if unknown:
-        raise PresetError(f"{where}: unknown key '{sorted(unknown)[0]}' "
-                          f"(allowed: {', '.join(sorted(_CUSTOM_KEYS))})")
+    _check_table(entry, _CUSTOM_KEYS, where)
     for key in sorted(_CUSTOM_REQUIRED):
         if key not in entry:
             raise PresetError(f"{where}: missing '{key}'")
     name = _str(entry["name"], f"{where}.name").strip()
     if not name:
         raise PresetError(f"{where}.name: must not be empty")
-    where = f"{where} ({name})"
-    pka = _num_list(entry["pKa"], f"{where}: pKa")
+    if len(name) > MAX_NAME:
+        raise PresetError(f"{where}.name: longer than {MAX_NAME} characters")
+    where = f"{where} ({_clip(name)})"
+    pka = _num_list(entry["pKa"], f"{where}: pKa", allow_empty=True)
     for i, p in enumerate(pka):
         if not -2.0 <= p <= 16.0:
             raise PresetError(f"{where}: pKa[{i + 1}] = {p:g} is outside -2..16")
-    dh = _num_list(entry["dH_kJ"], f"{where}: dH_kJ") if "dH_kJ" in entry else None
-    dcp = _num_list(entry["dCp_J"], f"{where}: dCp_J") if "dCp_J" in entry else None
+    dh = _num_list(entry["dH_kJ"], f"{where}: dH_kJ", allow_empty=True) if "dH_kJ" in entry else None
+    dcp = _num_list(entry["dCp_J"], f"{where}: dCp_J", allow_empty=True) if "dCp_J" in entry else None
+    if dh is not None:
+        for i, v in enumerate(dh):
+            if abs(v) > MAX_ABS_DH_KJ:
+                raise PresetError(f"{where}: dH_kJ[{i + 1}] = {v:g} is outside ±{MAX_ABS_DH_KJ:g} kJ/mol")
+    if dcp is not None:
+        for i, v in enumerate(dcp):
+            if abs(v) > 5000.0:
+                raise PresetError(f"{where}: dCp_J[{i + 1}] = {v:g} is outside ±5000 J/(K·mol)")
+    pka_sd = _num_list(entry["pKa_sd"], f"{where}: pKa_sd", allow_empty=True) if "pKa_sd" in entry else None
     charge = _int(entry["charge_fully_protonated"], f"{where}: charge_fully_protonated", lo=-6, hi=6)
     protons = _int(entry["protons"], f"{where}: protons", lo=0, hi=len(pka))
     size = _num(entry.get("ion_size_A", 4.0), f"{where}: ion_size_A", lo=1.0, hi=15.0)
+    ref_i = _num(entry.get("ionic_strength_M", 0.0), f"{where}: ionic_strength_M", lo=0.0, hi=5.0)
     species = entry.get("species")
     if species is None:
-        species = tuple(f"{name} ({charge_label(charge - k) or '0'})" for k in range(len(pka) + 1))
+        if not pka and charge_from_name(name) == charge:
+            species = (name,)
+        elif not pka:
+            raise PresetError(f"{where}: species: give the one species name (e.g. \"M{charge_label(charge) or ''}\")"
+                              " of a system with no pKa")
+        else:
+            species = tuple(f"{name} ({charge_label(charge - k) or '0'})" for k in range(len(pka) + 1))
     else:
         if (not isinstance(species, list) or len(species) != len(pka) + 1
                 or not all(isinstance(s, str) and s.strip() for s in species)):
-            raise PresetError(f"{where}: species must list {len(pka) + 1} names, fully protonated first")
+            raise PresetError(f"{where}: species must list {len(pka) + 1} name{'s' if pka else ''}, "
+                              "fully protonated first")
         species = tuple(s.strip() for s in species)
+        for k, sp in enumerate(species):
+            if len(sp) > MAX_NAME:
+                raise PresetError(f"{where}: species name longer than {MAX_NAME} characters")
+            if sp in WATER_IONS or sp in {i.name for i in library.ions}:
+                raise PresetError(f"{where}: species '{_clip(sp)}' is the name of a strong ion or of water's "
+                                  "ions; choose another name")
+            if charge_from_name(sp) not in (0, charge - k) and _has_suffix(sp):
+                raise PresetError(f"{where}: species '{_clip(sp)}' should carry charge {charge - k:+d}")
     counter_in = entry.get("counter_ions", {})
     if not isinstance(counter_in, dict):
         raise PresetError(f"{where}: counter_ions must be a table like {{ \"Cl-\" = 1 }}")
@@ -107,38 +159,111 @@ def custom_reagent(entry: dict, where: str, library: Library) -> Reagent:
         try:
             ion = library.ion(ion_name)
         except ChemError:
-            raise PresetError(f"{where}: counter_ions: unknown ion '{ion_name}' "
+            raise PresetError(f"{where}: counter_ions: unknown ion '{_clip(ion_name)}' "
                               f"(use {', '.join(i.name for i in library.ions)})") from None
-        counter.append((ion, _int(n, f"{where}: counter_ions.{ion_name}", lo=1, hi=10)))
+        counter.append((ion, _int(n, f"{where}: counter_ions.{_clip(ion_name)}", lo=1, hi=10)))
     molar_mass = entry.get("molar_mass")
     if molar_mass is not None:
         molar_mass = _num(molar_mass, f"{where}: molar_mass", lo=1e-3, hi=1e6)
     source = _str(entry.get("source", "user-defined in the preset"), f"{where}: source")
     try:
         system = AcidBaseSystem(name=name, species=species, pka=pka, charge_fully_protonated=charge,
-                                dh_kj=dh, dcp_j=dcp, ion_size_a=size, source=source, custom=True)
+                                dh_kj=dh or None, dcp_j=dcp or None, ion_size_a=size, source=source, custom=True,
+                                buffer=bool(pka), ionic_strength=ref_i, pka_sd=pka_sd or None)
         return Reagent(name=name, system=system, protons=protons, counter_ions=tuple(counter),
                        molar_mass=molar_mass, source=source, custom=True)
     except ChemError as exc:
         raise PresetError(f"{where}: {exc}") from None
 
 
+def _has_suffix(name: str) -> bool:
+    return name.endswith(("+", "-"))
+
+
+#: Longest name accepted for anything a preset defines.
+MAX_NAME = 80
+
+
+def _reaction_table(kind: str, entry, where: str, index: dict):
+    """One ``[[custom_complex]]``, ``[[custom_solid]]`` or ``[[custom_gas]]`` table, resolved."""
+    _check_table(entry, _KIND_KEYS[kind], where)
+    for key in ("name", "reaction", "log_K"):
+        if key not in entry:
+            raise PresetError(f"{where}: missing '{key}'")
+    name = _str(entry["name"], f"{where}: name").strip()
+    if not name:
+        raise PresetError(f"{where}: name: must not be empty")
+    if len(name) > MAX_NAME:
+        raise PresetError(f"{where}: name: longer than {MAX_NAME} characters")
+    where = f"{where} ({_clip(name)})"
+    reaction = entry["reaction"]
+    if not isinstance(reaction, dict) or not reaction:
+        raise PresetError(f"{where}: reaction: expected a table of species and whole-number coefficients, "
+                          "e.g. { \"M^2+\" = 1, \"L-\" = 1 }")
+    for sp, coeff in reaction.items():
+        if isinstance(coeff, bool) or not isinstance(coeff, int):
+            raise PresetError(f"{where}: reaction: coefficient of '{_clip(sp)}' must be a whole number "
+                              f"(got {_quote(coeff)})")
+        if coeff == 0:
+            raise PresetError(f"{where}: reaction: coefficient of '{_clip(sp)}' must not be 0")
+        if coeff < 0 and sp not in WATER_IONS:
+            raise PresetError(f"{where}: reaction: only H+ and OH- may have a negative coefficient "
+                              f"(got '{_clip(sp)}' = {coeff})")
+    log_k = _num(entry["log_K"], f"{where}: log_K", lo=-200.0, hi=200.0)
+    dh = _num(entry["dH_kJ"], f"{where}: dH_kJ", lo=-MAX_ABS_DH_KJ, hi=MAX_ABS_DH_KJ) if "dH_kJ" in entry else None
+    ref_i = _num(entry.get("ionic_strength_M", 0.0), f"{where}: ionic_strength_M", lo=0.0, hi=5.0)
+    sd = _num(entry["log_K_sd"], f"{where}: log_K_sd", lo=0.0, hi=10.0) if "log_K_sd" in entry else None
+    source = _str(entry.get("source", "user-defined in the preset"), f"{where}: source")
+    args = dict(name=name, reaction=tuple(reaction.items()), log_k=log_k, dh_kj=dh, ionic_strength=ref_i,
+                log_k_sd=sd, source=source, custom=True)
+    try:
+        if kind == "custom_complex":
+            item = Complex(**args, ion_size_a=_num(entry.get("ion_size_A", 4.0), f"{where}: ion_size_A",
+                                                   lo=1.0, hi=15.0))
+        elif kind == "custom_solid":
+            item = Solid(**args, formula=_str(entry.get("formula", ""), f"{where}: formula"))
+        else:
+            if len(reaction) != 1 or next(iter(reaction.values())) != 1:
+                raise PresetError(f"{where}: reaction: a gas dissolves into one species with coefficient 1, "
+                                  "e.g. { \"HL\" = 1 }")
+            item = Gas(**args, formula=_str(entry.get("formula", ""), f"{where}: formula"))
+    except PresetError:
+        raise
+    except ChemError as exc:
+        raise PresetError(f"{where}: {exc}") from None
+    try:
+        resolved = resolve(item, index, allow_complex=kind == "custom_gas")
+    except ChemError as exc:
+        msg = str(exc)
+        field = "name" if msg.startswith("name:") else "reaction"
+        raise PresetError(f"{where}: {msg if msg.startswith((field + ':')) else field + ': ' + msg}") from None
+    if kind == "custom_gas":
+        own = resolved.owners[0]
+        from .model import species_charge
+        if species_charge(own, resolved.species) != 0:
+            raise PresetError(f"{where}: reaction: the dissolved species of a gas must be neutral "
+                              f"('{_clip(resolved.species)}' is charged)")
+    return resolved
+
+
 def parse_preset(data: dict, label: str, library: Library | None = None) -> Mixture:
     """Turn the parsed TOML of a preset into a :class:`Mixture`; ``label`` names the file in errors."""
     library = library or load_library()
+    if not isinstance(data, dict):
+        raise PresetError(f"{label}: expected a TOML document")
     unknown = set(data) - _TOP_KEYS
     if unknown:
-        raise PresetError(f"{label}: unknown key '{sorted(unknown)[0]}' "
+        raise PresetError(f"{label}: unknown key '{_clip(sorted(unknown)[0])}' "
                           f"(allowed: {', '.join(sorted(_TOP_KEYS))})")
     fmt = data.get("format", FORMAT)
     if fmt != FORMAT or isinstance(fmt, bool):
-        raise PresetError(f"{label}: format: expected {FORMAT}, got {fmt!r}")
+        raise PresetError(f"{label}: format: expected {FORMAT}, got {_quote(fmt)}")
     title = _str(data.get("title", ""), f"{label}: title")
     notes = _str(data.get("notes", ""), f"{label}: notes")
     temp = _num(data.get("temperature_c", 25.0), f"{label}: temperature_c", lo=0.0, hi=100.0)
     activity = _str(data.get("activity", "davies"), f"{label}: activity")
     if activity not in MODELS:
-        raise PresetError(f"{label}: activity: unknown model '{activity}' (use {', '.join(MODELS)})")
+        raise PresetError(f"{label}: activity: unknown model '{_clip(activity)}' (use {', '.join(MODELS)})")
 
     customs: dict[str, Reagent] = {}
     raw_custom = data.get("custom", [])
@@ -148,8 +273,80 @@ def parse_preset(data: dict, label: str, library: Library | None = None) -> Mixt
         reagent = custom_reagent(entry, f"{label}: custom {i + 1}", library)
         key = reagent.name.casefold()
         if key in customs:
-            raise PresetError(f"{label}: custom {i + 1}: name '{reagent.name}' is defined twice")
+            raise PresetError(f"{label}: custom {i + 1}: name '{_clip(reagent.name)}' is defined twice")
         customs[key] = reagent
+
+    # species names: the preset's own systems first, then the library's
+    index = dict(library.species_index)
+    own_species: dict[str, str] = {}
+    for reagent in customs.values():
+        for sp in reagent.system.species:
+            if sp in own_species:
+                raise PresetError(f"{label}: custom ({_clip(reagent.name)}): species name '{_clip(sp)}' is also "
+                                  f"used by custom '{_clip(own_species[sp])}'")
+            own_species[sp] = reagent.name
+            index[sp] = reagent.system
+    extras: dict[str, list] = {"custom_complex": [], "custom_solid": [], "custom_gas": []}
+    taken: dict[str, str] = {sp: "a species" for sp in own_species}
+    for kind in ("custom_complex", "custom_solid", "custom_gas"):
+        raw = data.get(kind, [])
+        if not isinstance(raw, list):
+            raise PresetError(f"{label}: {kind}: expected [[{kind}]] tables")
+        label_kind = kind.replace("_", " ")
+        for i, entry in enumerate(raw):
+            item = _reaction_table(kind, entry, f"{label}: {label_kind} {i + 1}", index)
+            if item.name in taken:
+                raise PresetError(f"{label}: {label_kind} {i + 1} ({_clip(item.name)}): name: '{_clip(item.name)}' "
+                                  f"is already {taken[item.name]} in this preset")
+            taken[item.name] = f"a {label_kind.replace('custom ', '')}"
+            extras[kind].append(item)
+            if kind == "custom_complex":
+                index[item.name] = item
+
+    gases = []
+    raw_gas = data.get("gas", [])
+    if not isinstance(raw_gas, list):
+        raise PresetError(f"{label}: gas: expected [[gas]] tables")
+    own_gases = {g.name.casefold(): g for g in extras["custom_gas"]}
+    for i, entry in enumerate(raw_gas):
+        where = f"{label}: gas {i + 1}"
+        _check_table(entry, _GAS_KEYS, where)
+        if "name" not in entry:
+            raise PresetError(f"{where}: missing 'name'")
+        name = _str(entry["name"], f"{where}: name").strip()
+        where = f"{where} ({_clip(name)})"
+        if "pressure" not in entry:
+            raise PresetError(f"{where}: missing 'pressure'")
+        gas = own_gases.get(name.casefold())
+        if gas is None:
+            try:
+                gas = library.gas(name)
+            except ChemError as exc:
+                raise PresetError(f"{where}: name: {exc}") from None
+        raw_p = entry["pressure"]
+        try:
+            pressure = parse_pressure(raw_p)
+        except ChemError as exc:
+            raise PresetError(f"{where}: pressure: {exc}") from None
+        if any(g.gas.name == gas.name for g in gases):
+            raise PresetError(f"{where}: name: gas '{_clip(gas.name)}' is held twice")
+        gases.append(FixedGas(gas, pressure, raw_p.strip() if isinstance(raw_p, str) else None))
+
+    precipitate = data.get("precipitate", False)
+    if isinstance(precipitate, list):
+        names = []
+        known = {s.name for s in library.solids} | {s.name for s in extras["custom_solid"]}
+        for j, sname in enumerate(precipitate):
+            if not isinstance(sname, str):
+                raise PresetError(f"{label}: precipitate[{j + 1}]: expected a solid's name")
+            if sname not in known:
+                close = [k for k in known if k.casefold() == sname.casefold()]
+                hint = f" (did you mean '{close[0]}'?)" if close else ""
+                raise PresetError(f"{label}: precipitate: unknown solid '{_clip(sname)}'{hint}")
+            names.append(sname)
+        precipitate = tuple(names)
+    elif not isinstance(precipitate, bool):
+        raise PresetError(f"{label}: precipitate: expected true, false or a list of solid names")
 
     raw_ing = data.get("ingredient", [])
     if not isinstance(raw_ing, list):
@@ -161,11 +358,11 @@ def parse_preset(data: dict, label: str, library: Library | None = None) -> Mixt
             raise PresetError(f"{where}: expected a table with name and conc")
         unknown = set(entry) - _INGREDIENT_KEYS
         if unknown:
-            raise PresetError(f"{where}: unknown key '{sorted(unknown)[0]}' (allowed: conc, name)")
+            raise PresetError(f"{where}: unknown key '{_clip(sorted(unknown)[0])}' (allowed: conc, name)")
         if "name" not in entry:
             raise PresetError(f"{where}: missing 'name'")
         name = _str(entry["name"], f"{where}: name")
-        where = f"{where} ({name})"
+        where = f"{where} ({_clip(name)})"
         if "conc" not in entry:
             raise PresetError(f"{where}: missing 'conc'")
         reagent = customs.get(name.strip().casefold())
@@ -179,11 +376,17 @@ def parse_preset(data: dict, label: str, library: Library | None = None) -> Mixt
             conc = parse_concentration(raw, molar_mass=reagent.molar_mass)
         except ChemError as exc:
             raise PresetError(f"{where}: conc: {exc}") from None
+        except OverflowError:
+            raise PresetError(f"{where}: conc: number too large") from None
         ingredients.append(Ingredient(reagent, conc, raw.strip() if isinstance(raw, str) else None))
     try:
-        return Mixture(tuple(ingredients), temperature_c=temp, activity=activity, title=title, notes=notes)
+        mixture = Mixture(tuple(ingredients), temperature_c=temp, activity=activity, title=title, notes=notes,
+                          gases=tuple(gases), precipitate=precipitate,
+                          custom_complexes=tuple(extras["custom_complex"]),
+                          custom_solids=tuple(extras["custom_solid"]), custom_gases=tuple(extras["custom_gas"]))
     except ChemError as exc:
         raise PresetError(f"{label}: {exc}") from None
+    return mixture
 
 
 #: Largest preset (or autosave) file read, in bytes: a hand-written preset is a few kilobytes;
@@ -295,6 +498,10 @@ def _custom_table(reagent: Reagent) -> dict[str, Any]:
         table["dH_kJ"] = list(sys_.dh_kj)
     if sys_.dcp_j is not None:
         table["dCp_J"] = list(sys_.dcp_j)
+    if sys_.pka_sd is not None:
+        table["pKa_sd"] = list(sys_.pka_sd)
+    if sys_.ionic_strength:
+        table["ionic_strength_M"] = sys_.ionic_strength
     table["ion_size_A"] = sys_.ion_size_a
     table["charge_fully_protonated"] = sys_.charge_fully_protonated
     table["protons"] = reagent.protons
@@ -303,6 +510,26 @@ def _custom_table(reagent: Reagent) -> dict[str, Any]:
     if reagent.molar_mass is not None:
         table["molar_mass"] = reagent.molar_mass
     return table
+
+
+def _inline(mapping: dict) -> str:
+    return "{ " + ", ".join(f"{json.dumps(k)} = {v}" for k, v in mapping.items()) + " }"
+
+
+def _reaction_text(kind: str, item) -> str:
+    table: dict[str, Any] = {"name": item.name}
+    if getattr(item, "formula", ""):
+        table["formula"] = item.formula
+    table["log_K"] = item.log_k
+    if item.dh_kj is not None:
+        table["dH_kJ"] = item.dh_kj
+    if kind == "custom_complex" and item.ion_size_a != 4.0:
+        table["ion_size_A"] = item.ion_size_a
+    if item.ionic_strength:
+        table["ionic_strength_M"] = item.ionic_strength
+    if item.log_k_sd is not None:
+        table["log_K_sd"] = item.log_k_sd
+    return (f"\n[[{kind}]]\n" + tomli_w.dumps(table) + f"reaction = {_inline(dict(item.reaction))}\n")
 
 
 def dumps_preset(mixture: Mixture) -> str:
@@ -314,18 +541,34 @@ def dumps_preset(mixture: Mixture) -> str:
     doc["activity"] = mixture.activity
     if mixture.notes:
         doc["notes"] = mixture.notes
+    p = mixture.precipitate
+    if p is not False:
+        doc["precipitate"] = p if isinstance(p, bool) else list(p)
     parts = [tomli_w.dumps(doc)]
     for ing in mixture.ingredients:              # [[ingredient]] tables, as people write them
         parts.append("\n[[ingredient]]\n" + tomli_w.dumps({"name": ing.reagent.name,
                                                            "conc": ing.text if ing.text else ing.conc}))
+    for g in mixture.gases:
+        parts.append("\n[[gas]]\n" + tomli_w.dumps({"name": g.gas.name,
+                                                    "pressure": g.text if g.text else g.pressure_atm}))
     seen: set[str] = set()
     for ing in mixture.ingredients:
         if ing.reagent.custom and ing.reagent.name not in seen:
             seen.add(ing.reagent.name)
             table = _custom_table(ing.reagent)
             ions = table.pop("counter_ions")
-            inline = ", ".join(f"{json.dumps(name)} = {n}" for name, n in ions.items())
-            parts.append("\n[[custom]]\n" + tomli_w.dumps(table) + f"counter_ions = {{ {inline} }}\n")
+            parts.append("\n[[custom]]\n" + tomli_w.dumps(table) + f"counter_ions = {_inline(ions)}\n")
+    # custom systems that only a gas or a reaction brings in
+    for kind, items in (("custom_complex", mixture.custom_complexes), ("custom_solid", mixture.custom_solids),
+                        ("custom_gas", mixture.custom_gases)):
+        for item in items:
+            for own in item.owners:
+                if isinstance(own, AcidBaseSystem) and own.custom and own.name not in seen:
+                    seen.add(own.name)
+                    parts.append("\n[[custom]]\n" + tomli_w.dumps(
+                        {"name": own.name, "pKa": list(own.pka), "charge_fully_protonated": own.charge_fully_protonated,
+                         "protons": 0, "species": list(own.species)}))
+            parts.append(_reaction_text(kind, item))
     return "".join(parts)
 
 

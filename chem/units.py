@@ -168,3 +168,56 @@ def parse_temperature(value, what: str = "temperature") -> float:
             raise UnitError(f"{what}: {shown(value)} is not a temperature (expected e.g. '37' or '37 °C')")
         value = number
     return check_temperature(value, what)
+
+
+#: Pressure units -> atm. ppm and % are parts of a 1 atm total pressure.
+_PRESSURE = {
+    "atm": 1.0, "bar": 1.0 / 1.01325, "kPa": 1.0 / 101.325, "Pa": 1.0 / 101325.0, "mmHg": 1.0 / 760.0,
+    "torr": 1.0 / 760.0, "Torr": 1.0 / 760.0, "uatm": 1e-6, "µatm": 1e-6, "μatm": 1e-6, "mbar": 1e-3 / 1.01325,
+    "ppm": 1e-6, "ppmv": 1e-6, "%": 1e-2,
+}
+
+#: Largest partial pressure accepted, atm (a sanity bound for open-vessel work).
+MAX_PRESSURE_ATM = 1000.0
+
+
+def parse_pressure(value) -> float:
+    """Partial pressure in atm from a number (atm) or a string with a unit.
+
+    Units: atm, bar, mbar, kPa, Pa, mmHg (torr), uatm (µatm), and ppm or %
+    of a 1 atm total pressure.  The pressure must be above 0.
+
+    >>> parse_pressure("420 uatm")
+    0.00042
+    >>> parse_pressure("5 %")
+    0.05
+    """
+    if isinstance(value, bool) or not isinstance(value, (int, float, str)):
+        raise UnitError(f"{shown(value)} is not a pressure (expected e.g. '420 uatm' or '5 %')")
+    if isinstance(value, str):
+        text = value.strip()
+        if _other_digits(text):
+            raise UnitError(f"{shown(text)}: write numbers with the digits 0-9 (not full-width or other scripts)")
+        m = _NUMBER.match(text)
+        if not m:
+            raise UnitError(f"{shown(text)} is not a pressure (expected a number and a unit, e.g. '420 uatm')")
+        v = float(m.group(1))
+        unit = m.group(2)
+        if unit == "":
+            factor = 1.0
+        elif unit in _PRESSURE:
+            factor = _PRESSURE[unit]
+        else:
+            raise UnitError(f"{shown(text)}: unknown pressure unit {shown(unit, 16)} "
+                            "(use atm, bar, kPa, Pa, mmHg, uatm, ppm or %)")
+        p = v * factor
+    else:
+        try:
+            p = float(value)
+        except OverflowError:
+            raise UnitError(f"{shown(value)} is too large") from None
+    if not math.isfinite(p) or p <= 0:
+        raise UnitError(f"{shown(value)}: a pressure must be above 0")
+    if p > MAX_PRESSURE_ATM:
+        raise UnitError(f"{shown(value)}: more than {MAX_PRESSURE_ATM:g} atm")
+    return p

@@ -116,7 +116,7 @@ def test_save_refuses_to_overwrite_without_force(capsys, tmp_path):
 
 
 @pytest.mark.parametrize("args, fragment", [
-    (["--system", "nonsense", "--pH", "7"], "unknown acid–base system"),
+    (["--system", "nonsense", "--pH", "7"], "unknown system"),
     (["--system", "tris", "--pH", "3"], "out of reach"),
     (["--system", "tris", "--pH", "7", "--total", "fifty"], "not an amount"),
     (["--system", "tris", "--pH", "7", "--total=-5 mM"], "negative"),

@@ -37,7 +37,13 @@ def test_solve_json_follows_the_contract():
     assert by_name["H2PO4-"]["protons"] == 2 and by_name["H2PO4-"]["charge"] == -1
     phos = [s for s in doc["species"] if s["system"] == "phosphate"]
     assert sum(s["fraction"] for s in phos) == pytest.approx(1.0, abs=1e-12)
-    assert doc["systems"] == [{"name": "phosphate", "total_M": pytest.approx(0.020)}]
+    [phosphate] = doc["systems"]
+    assert phosphate["name"] == "phosphate" and phosphate["total_M"] == pytest.approx(0.020)
+    # DESIGN §8.3: dissolved, free and the distribution over every form, largest first
+    assert phosphate["dissolved_M"] == pytest.approx(0.020) and phosphate["free_M"] == pytest.approx(0.020)
+    shares = [d["fraction"] for d in phosphate["distribution"]]
+    assert shares == sorted(shares, reverse=True) and sum(shares) == pytest.approx(1.0, abs=1e-12)
+    assert doc["solids"] == [] and doc["gases"] == [] and doc["precipitate"] is False
 
 
 def test_solve_table_is_readable():

@@ -19,8 +19,9 @@ import pytest
 import chem
 from chem import AcidBaseSystem, Ingredient, Mixture, Reagent, solve, water
 from chem import curves
-from chem._batch import solve_batch
-from chem._solver import _strong_sums, equilibrium_at, prepare
+from chem import _kernel as K
+from chem._solver import assemble, kernel_inputs, run_kernel, state_of
+from chem.problem import compile, component_totals
 from chem.curves import (Cancelled, CurveError, buffer_capacity, buffer_capacity_at, dilution, sweep,
                          titration)
 
@@ -349,12 +350,14 @@ def test_unknown_species_name_is_a_clear_error(lib):
 # the vectorised kernel
 # --------------------------------------------------------------------------
 
-def _batch_of(mixtures):
-    lay, _, _ = prepare(mixtures[0])
-    totals = np.array([[c for _, c in m.systems()] for m in mixtures]).reshape(len(mixtures), -1)
-    qi = np.array([_strong_sums(m.strong_ions()) for m in mixtures])
-    t = np.array([m.temperature_c for m in mixtures])
-    return solve_batch(lay, lay.log_beta(t), totals, qi[:, 0], qi[:, 1], t, mixtures[0].activity)
+def _batch_of(mixtures, **kw):
+    """The kernel on many mixtures of one structure: (problem, inputs, result)."""
+    prob = compile(mixtures[0])
+    parts = [component_totals(prob.structure, m.ingredients) for m in mixtures]
+    totals = np.array([np.where((p[0] <= 0) & (np.arange(p[0].size) > 0), 1e-200, p[0]) for p in parts])
+    inp = kernel_inputs(prob, t_c=np.array([m.temperature_c for m in mixtures]), totals=totals,
+                        inert_i=np.array([p[2] for p in parts]))
+    return prob, inp, run_kernel(prob, inp, **kw)
 
 
 @pytest.mark.parametrize("activity", ["ideal", "davies", "extended-dh"])
@@ -368,19 +371,18 @@ def test_kernel_agrees_with_solve_over_wild_amounts(lib, activity):
         t = float(rng.uniform(0, 100))
         mixtures.append(Mixture(tuple(Ingredient(lib.reagent(n), float(c)) for n, c in zip(names, conc)),
                                 temperature_c=t, activity=activity))
-    batch = _batch_of(mixtures)
+    _, _, batch = _batch_of(mixtures)
     assert batch.converged.all()
     for i, m in enumerate(mixtures):
-        eq, got = solve(m), equilibrium_at(m, batch, i)
+        eq = solve(m)
+        got = assemble(compile(m), state_of(batch, i))
         assert got.pH == pytest.approx(eq.pH, abs=1e-8)
         assert got.ionic_strength == pytest.approx(eq.ionic_strength, rel=1e-8)
 
 
 def test_kernel_starved_of_iterations_says_it_did_not_converge(lib):
     m = mix(lib, ("phosphoric acid", 0.5), ("NaOH", 0.7), activity="davies")
-    lay, totals, strong = prepare(m)
-    q, i = _strong_sums(strong)
-    batch = solve_batch(lay, lay.log_beta(25.0), totals[None], [q], [i], 25.0, "davies", max_iter=1)
+    _, _, batch = _batch_of([m], max_iter=1)
     assert not batch.converged[0]
 
 
@@ -409,20 +411,19 @@ def test_kernel_converges_for_highly_charged_ions_at_high_ionic_strength(lib, ac
     assert_matches_solve(curve, range(0, 121, 10), rel=1e-7)
 
 
-def test_safeguarded_stage_alone_converges_from_a_poor_start(lib):
-    # The fallback behind the Newton stage, run on its own from pH 7 and the strong ions' I.
-    from chem._batch import _Constants, _safeguarded
-
+def test_nested_ionic_strength_stage_alone_converges_from_a_poor_start(lib):
+    # The fallback behind the fast stage (inner solve at fixed I, bracketed outer search on I),
+    # run on its own from pH 7, every component free and the inert ions' ionic strength.
     mixtures = [_exotic(lib, c, "davies") for c in (0.0, 0.2434, 0.308, 3.0)]
-    lay, _, _ = prepare(mixtures[0])
-    totals = np.array([[c for _, c in m.systems()] for m in mixtures])
-    qi = np.array([_strong_sums(m.strong_ions()) for m in mixtures])
-    t = np.full(len(mixtures), 80.0)
-    x, ionic, converged, _ = _safeguarded(lay, _Constants.at("davies", t), lay.log_beta(t), totals, qi[:, 0],
-                                          qi[:, 1], np.full(len(mixtures), -7.0), qi[:, 1].copy(),
-                                          np.full(len(mixtures), 100.0), 1e-13, 500)
+    prob, inp, _ = _batch_of(mixtures)
+    n = len(mixtures)
+    u0 = np.zeros((n, prob.structure.n_components))
+    u0[:, 0] = -7.0 * LN10
+    u0[:, 1:] = np.log(inp.totals[:, 1:])
+    idx = np.arange(n)
+    u, ionic, _, _, _, converged, _ = K._nested(inp, idx, u0, inp.inert_i.copy(), np.zeros((n, 0), bool), 4000)
     assert converged.all()
-    for m, xi, ii in zip(mixtures, x, ionic):
+    for m, ui, ii in zip(mixtures, u, ionic):
         eq = solve(m)
-        assert -xi == pytest.approx(eq.pH, abs=1e-8)
+        assert -ui[0] / LN10 == pytest.approx(eq.pH, abs=1e-8)
         assert ii == pytest.approx(eq.ionic_strength, rel=1e-8)

@@ -38,7 +38,8 @@ def test_random_mixtures_converge_and_balance(mix):
     net = sum(s.charge * s.conc for s in eq.species)
     assert abs(net) <= 1e-12 * charge_scale(eq)
     # mass balance and fractions of every system
-    for name, total in eq.systems:
+    for state in eq.systems:
+        name, total = state.name, state.total
         forms = eq.species_of(name)
         assert math.fsum(s.fraction for s in forms) == pytest.approx(1.0, abs=1e-12)
         assert math.fsum(s.conc for s in forms) == pytest.approx(total, rel=1e-12, abs=1e-300)

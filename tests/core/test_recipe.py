@@ -56,7 +56,7 @@ def test_every_recipe_read_back_as_a_preset_gives_the_target_pH(name, step, offs
     assert eq.pH == pytest.approx(target, abs=1e-3)
     assert all(item.amount >= 0 and item.conc >= 0 for item in recipe.items)
     # The system total in the flask is the total asked for.
-    assert dict(eq.systems)[LIB.system(name).name] == pytest.approx(0.05, rel=1e-5)
+    assert eq.system(LIB.system(name).name).total == pytest.approx(0.05, rel=1e-5)
 
 
 @settings(max_examples=40, deadline=None, suppress_health_check=[HealthCheck.too_slow])

@@ -284,7 +284,7 @@ def draw(x: np.ndarray, curves: Sequence[tuple[str, np.ndarray]], ph: float, req
 
 
 def _selected_systems(result: chem.Equilibrium, request: PlotRequest) -> tuple[str, ...] | None:
-    names = {name for name, _ in result.systems}
+    names = {st.name for st in result.systems}
     return (request.system,) if request.system in names else None
 
 

@@ -101,7 +101,7 @@ class Readout(Widget):
         lines.append([])
         lines.append([("pKw ", "readout--dim"), (f"{eq.pKw:.3f}", ""), ("   balance error ", "readout--dim"),
                       (f"{abs(eq.balance_error):.1e} M", "")])
-        totals = ", ".join(f"{name} {chem.format_molar(total)}" for name, total in eq.systems) or "none"
+        totals = ", ".join(f"{st.name} {chem.format_molar(st.total)}" for st in eq.systems) or "none"
         wrapped = textwrap.wrap(f"systems {totals}", max(width, 20), break_on_hyphens=False) or [""]
         lines.append([("systems", "readout--dim"), (wrapped[0][len("systems"):], "")])
         lines += [[(more, "")] for more in wrapped[1:]]

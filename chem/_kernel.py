@@ -1,0 +1,714 @@
+"""The equilibrium solver: one set of equations with a batch axis.
+
+Given a compiled :class:`~chem.problem.Structure` (stoichiometry ν, charges,
+sizes) and, per point, ln K, totals T, Debye–Hückel A and B, the kernel finds
+u = ln(free component activities) and the ionic strength I.
+
+At fixed activity coefficients the equilibrium minimises the strictly convex
+
+    f(u) = Σ_s c_s(u) − Σ_j T_j u_j,      c_s = exp(ln K_s − ln γ_s + ν_s·u),
+
+whose gradient is the mass-balance residual Σ_s ν_sj c_s − T_j and whose
+Hessian Σ_s c_s ν_s ν_sᵀ is positive definite.  Solids are linear
+inequalities A_p·u ≤ b_p (saturation index ≤ 0) and fixed gases (or a pH
+held by a pH-stat) linear equalities E_k·u = e_k; their Lagrange multipliers
+are the amounts precipitated and taken up.  The iteration is a primal
+active-set Newton method:
+
+* the Newton step solves the KKT system of the working set (active solids
+  and equalities) — it keeps the equalities and active solids exactly;
+* the step is limited so that no inactive solid becomes supersaturated (the
+  first one it would cross joins the working set — so the working set never
+  holds more independent constraints than there are components: the phase
+  rule), and shortened by backtracking until f decreases (Armijo);
+* when the step vanishes, an active solid with a negative amount leaves.
+
+The ionic strength is updated from the species after every step (fast; the
+usual case converges in a handful of steps); points that do not settle go
+to a nested scheme that cannot cycle: the inner solve at fixed I to
+convergence, and I from a bracketed (Illinois) root search of
+R(I) = I_computed(I) − I, which is positive at 0 and negative at the cap.
+
+Every array carries a leading batch axis P, so one call solves a whole
+titration or sweep, and ``solve`` is a batch of one.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+
+_LN10 = math.log(10.0)
+#: Largest change of any ln activity in one Newton step (about 3.5 decades).
+STEP_MAX = 8.0
+#: Newton steps below this (ln units) are converged (the next would be ~1e-18).
+STEP_TOL = 1e-9
+_EXP_MAX = 690.0
+
+
+@dataclass
+class Inputs:
+    """Everything the kernel needs, per point where it varies (leading axis P)."""
+
+    nu: np.ndarray          # (ns, nc)
+    z2: np.ndarray          # (ns,)
+    size: np.ndarray        # (ns,)
+    model: object           # ActivityModel
+    lnk: np.ndarray         # (P, ns) natural-log formation constants, I = 0
+    totals: np.ndarray      # (P, nc)
+    a: np.ndarray           # (P,) Debye–Hückel A
+    b: np.ndarray           # (P,) Debye–Hückel B
+    inert_i: np.ndarray     # (P,) ionic strength of inert ions
+    eq_rows: np.ndarray     # (ne, nc) equality constraints E u = e
+    eq_rhs: np.ndarray      # (P, ne)
+    sol_a: np.ndarray       # (nq, nc)
+    sol_b: np.ndarray       # (P, nq)
+    allowed: np.ndarray     # (P, nq) bool: which solids may form
+    fixed_ionic: np.ndarray | None = None   # (P,) hold I at these values (no self-consistency)
+    counter_row: int | None = None
+    """An equality row whose multiplier is strong acid/base added with a monovalent counter-ion (pH-stat)."""
+
+    @property
+    def points(self) -> int:
+        return self.lnk.shape[0]
+
+
+@dataclass
+class Result:
+    u: np.ndarray           # (P, nc)
+    ionic: np.ndarray       # (P,)
+    lng: np.ndarray         # (P, ns) natural-log activity coefficients
+    conc: np.ndarray        # (P, ns)
+    amounts: np.ndarray     # (P, nq) solid amounts (0 when absent)
+    eq_mult: np.ndarray     # (P, ne) multipliers of the equalities
+    converged: np.ndarray   # (P,)
+    residual: np.ndarray    # (P,) largest relative mass-balance residual
+    iterations: int
+
+
+# --------------------------------------------------------------------------
+# pieces
+# --------------------------------------------------------------------------
+
+def ln_gamma(inp: Inputs, idx, ionic: np.ndarray) -> np.ndarray:
+    """Natural-log activity coefficients (len(idx), ns) at ionic strengths ``ionic``."""
+    mdl = inp.model
+    if mdl.ideal:
+        return np.zeros((ionic.shape[0], inp.z2.shape[0]))
+    a = inp.a[idx][:, None]
+    if mdl.size_dependent:
+        d = mdl.d(ionic[:, None], inp.b[idx][:, None], inp.size[None, :])
+    else:
+        d = mdl.d(ionic, None, None)[:, None]
+    return -_LN10 * a * inp.z2[None, :] * d
+
+
+def d_ln_gamma(inp: Inputs, idx, ionic: np.ndarray) -> np.ndarray:
+    """d ln γ / dI, shaped (len(idx), ns)."""
+    mdl = inp.model
+    if mdl.ideal:
+        return np.zeros((ionic.shape[0], inp.z2.shape[0]))
+    a = inp.a[idx][:, None]
+    if mdl.size_dependent:
+        dd = mdl.dd(ionic[:, None], inp.b[idx][:, None], inp.size[None, :])
+    else:
+        dd = mdl.dd(ionic, None, None)[:, None]
+    return -_LN10 * a * inp.z2[None, :] * dd
+
+
+def concentrations(inp: Inputs, idx, u: np.ndarray, lng: np.ndarray) -> np.ndarray:
+    lnc = inp.lnk[idx] - lng + u @ inp.nu.T
+    np.minimum(lnc, _EXP_MAX, out=lnc)
+    return np.exp(lnc)
+
+
+def ionic_of(inp: Inputs, idx, conc: np.ndarray, eq_mult: np.ndarray | None = None) -> np.ndarray:
+    """The ionic strength the species (and inert ions, and a pH-stat's counter-ion) make."""
+    i = 0.5 * (conc @ inp.z2) + inp.inert_i[idx]
+    if inp.counter_row is not None and eq_mult is not None and eq_mult.shape[1]:
+        i = i + 0.5 * np.abs(eq_mult[:, inp.counter_row])
+    return i
+
+
+def _objective(inp: Inputs, idx, u, lng) -> tuple[np.ndarray, np.ndarray]:
+    c = concentrations(inp, idx, u, lng)
+    return c.sum(axis=1) - np.einsum("pj,pj->p", inp.totals[idx], u), c
+
+
+def _kkt_step(inp: Inputs, idx, u, c, active):
+    """Newton direction d and multipliers (λ of equalities, λ of solids) for the working set.
+
+    Solves [[H, Cᵀ], [C, 0]] [d; λ] = [−g; r] with H = Σ c ν νᵀ, C the
+    equality rows and the active solids' rows, r their residuals; inactive
+    solids get an identity row (λ = 0).  Rows and columns are scaled by the
+    diagonal of H so components from 1e-200 to 10 M sit in one system.
+    """
+    nu = inp.nu
+    p = u.shape[0]
+    nc = nu.shape[1]
+    ne = inp.eq_rows.shape[0]
+    nq = inp.sol_a.shape[0]
+    g = c @ nu - inp.totals[idx]
+    hess = np.matmul(nu.T, c[:, :, None] * nu[None, :, :])
+    diag = np.einsum("pjj->pj", hess)
+    s = 1.0 / np.sqrt(np.maximum(diag, 1e-300))
+    n = nc + ne + nq
+    if n == nc:
+        hs = hess * s[:, :, None] * s[:, None, :]
+        hs[:, np.arange(nc), np.arange(nc)] += 1e-14
+        rhs = -g * s
+        try:
+            ds = np.linalg.solve(hs, rhs[:, :, None])[:, :, 0]
+        except np.linalg.LinAlgError:
+            ds = _lstsq(hs, rhs)
+        return ds * s, np.zeros((p, 0)), np.zeros((p, 0)), g
+    k = np.zeros((p, n, n))
+    k[:, :nc, :nc] = hess * s[:, :, None] * s[:, None, :]
+    k[:, np.arange(nc), np.arange(nc)] += 1e-14
+    rhs = np.zeros((p, n))
+    rhs[:, :nc] = -g * s
+    if ne:
+        e = inp.eq_rows[None, :, :] * s[:, None, :]              # (p, ne, nc)
+        norm = 1.0 / np.maximum(np.linalg.norm(e, axis=2), 1e-300)
+        e = e * norm[:, :, None]
+        k[:, nc:nc + ne, :nc] = e
+        k[:, :nc, nc:nc + ne] = np.transpose(e, (0, 2, 1))
+        rhs[:, nc:nc + ne] = (inp.eq_rhs[idx] - u @ inp.eq_rows.T) * norm
+    else:
+        norm = np.zeros((p, 0))
+    if nq:
+        a = inp.sol_a[None, :, :] * s[:, None, :]                # (p, nq, nc)
+        qn = 1.0 / np.maximum(np.linalg.norm(a, axis=2), 1e-300)
+        a = a * qn[:, :, None] * active[:, :, None]
+        k[:, nc + ne:, :nc] = a
+        k[:, :nc, nc + ne:] = np.transpose(a, (0, 2, 1))
+        ii = np.arange(nc + ne, n)
+        k[:, ii, ii] = np.where(active, 0.0, 1.0)
+        rhs[:, nc + ne:] = np.where(active, (inp.sol_b[idx] - u @ inp.sol_a.T) * qn, 0.0)
+    else:
+        qn = np.zeros((p, 0))
+    try:
+        sol = np.linalg.solve(k, rhs[:, :, None])[:, :, 0]
+    except np.linalg.LinAlgError:
+        sol = _lstsq(k, rhs)
+    d = sol[:, :nc] * s
+    lam_e = sol[:, nc:nc + ne] * norm
+    lam_s = np.where(active, sol[:, nc + ne:] * qn, 0.0) if nq else np.zeros((p, 0))
+    return d, lam_e, lam_s, g
+
+
+def _lstsq(k: np.ndarray, rhs: np.ndarray) -> np.ndarray:
+    out = np.empty_like(rhs)
+    for i in range(k.shape[0]):
+        try:
+            out[i] = np.linalg.solve(k[i], rhs[i])
+        except np.linalg.LinAlgError:
+            out[i] = np.linalg.lstsq(k[i], rhs[i], rcond=None)[0]
+    return out
+
+
+def _max_step(inp: Inputs, idx, u, d, active):
+    """Largest α ≤ 1 keeping every inactive allowed solid at SI ≤ 0, and which solid blocks (or -1)."""
+    p = u.shape[0]
+    if not inp.sol_a.shape[0]:
+        return np.ones(p), np.full(p, -1)
+    ad = d @ inp.sol_a.T
+    slack = inp.sol_b[idx] - u @ inp.sol_a.T
+    cand = (~active) & inp.allowed[idx] & (ad > 1e-300)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        alpha = np.where(cand, np.maximum(slack, 0.0) / ad, np.inf)
+    j = np.argmin(alpha, axis=1)
+    best = alpha[np.arange(p), j]
+    block = np.where(best < 1.0, j, -1)
+    return np.minimum(best, 1.0), block
+
+
+# --------------------------------------------------------------------------
+# the iteration
+# --------------------------------------------------------------------------
+
+def _iterate(inp: Inputs, idx: np.ndarray, u: np.ndarray, ionic: np.ndarray, active: np.ndarray,
+             *, freeze_ionic: bool, max_iter: int):
+    """Newton iterations for the points ``idx``; returns (u, ionic, active, lam_e, lam_s, converged, its)."""
+    p = idx.size
+    ne = inp.eq_rows.shape[0]
+    nq = inp.sol_a.shape[0]
+    lam_e = np.zeros((p, ne))
+    lam_s = np.zeros((p, nq))
+    converged = np.zeros(p, dtype=bool)
+    work = np.arange(p)                     # positions still iterating
+    its = 0
+    fixed_i = inp.fixed_ionic
+    # damping of the ionic-strength update: halved each time the update changes sign
+    omega = np.ones(p)
+    last_di = np.zeros(p)
+    gave_up = np.zeros(p, dtype=bool)
+    for its in range(1, max_iter + 1):
+        w = idx[work]
+        uw, iw, aw = u[work], ionic[work], active[work]
+        lng = ln_gamma(inp, w, iw)
+        f0, c = _objective(inp, w, uw, lng)
+        d, le, ls, g = _kkt_step(inp, w, uw, c, aw)
+        # step length: cap, blocking solids, Armijo backtracking on f
+        big = np.max(np.abs(d), axis=1)
+        cap = np.minimum(1.0, STEP_MAX / np.maximum(big, 1e-300))
+        amax, block = _max_step(inp, w, uw, d, aw)
+        alpha = np.minimum(cap, amax)
+        slope = np.einsum("pj,pj->p", g, d)
+        scale = c.sum(axis=1) + np.abs(np.einsum("pj,pj->p", inp.totals[w], uw)) + 1e-300
+        trust = (slope < 0) & (np.abs(slope) > 1e-13 * scale)
+        u_new = uw + alpha[:, None] * d
+        if trust.any():
+            f1, _ = _objective(inp, w, u_new, lng)
+            bad = trust & ~(f1 <= f0 + 1e-4 * alpha * slope)
+            for _ in range(50):
+                if not bad.any():
+                    break
+                alpha = np.where(bad, 0.5 * alpha, alpha)
+                b_idx = np.nonzero(bad)[0]
+                u_try = uw[b_idx] + alpha[b_idx, None] * d[b_idx]
+                f1b, _ = _objective(inp, w[b_idx], u_try, lng[b_idx])
+                ok = f1b <= f0[b_idx] + 1e-4 * alpha[b_idx] * slope[b_idx]
+                u_new[b_idx] = u_try
+                bad[b_idx[ok]] = False
+                if np.all(alpha[b_idx] * big[b_idx] < 1e-14):
+                    bad[b_idx] = False
+        blocked = (block >= 0) & (alpha >= amax * (1 - 1e-12)) & (amax < cap)
+        if blocked.any():
+            rows = np.nonzero(blocked)[0]
+            aw[rows, block[rows]] = True
+        u[work] = u_new
+        lam_e[work] = le
+        lam_s[work] = ls
+        # ionic strength from the new species (lagged activity coefficients)
+        if not freeze_ionic and not inp.model.ideal:
+            c_new = concentrations(inp, w, u_new, lng)
+            i_new = ionic_of(inp, w, c_new, le)
+            if fixed_i is not None:
+                i_new = fixed_i[w]
+            i_new = np.where(np.isfinite(i_new), i_new, iw)
+            delta = i_new - iw
+            flip = delta * last_di[work] < 0
+            om = np.where(flip, 0.5 * omega[work], np.minimum(1.0, omega[work] * 1.25))
+            omega[work] = om
+            last_di[work] = delta
+            i_next = iw + om * delta
+            di = np.abs(delta)
+            ionic[work] = i_next
+            gave_up[work] = om < 1.0 / 256
+        else:
+            di = np.zeros(work.size)
+        step = alpha * big
+        done = (step < STEP_TOL) & (alpha == 1.0) & (di <= 1e-12 * np.maximum(ionic[work], 1e-300) + 1e-18)
+        # at the working set's optimum: release an active solid with a negative amount
+        if nq:
+            neg = done & np.any(aw & (ls < -1e-14 * np.maximum(np.abs(inp.totals[w]).max(axis=1), 1e-300)),
+                                axis=1)
+            if neg.any():
+                rows = np.nonzero(neg)[0]
+                worst = np.argmin(np.where(aw[rows], ls[rows], np.inf), axis=1)
+                aw[rows, worst] = False
+                done &= ~neg
+        active[work] = aw
+        converged[work[done]] = True
+        work = work[~done & ~gave_up[work]]
+        if work.size == 0:
+            break
+    return u, ionic, active, lam_e, lam_s, converged, its
+
+
+def solve(inp: Inputs, u0: np.ndarray, i0: np.ndarray, *, max_iter: int = 200,
+          active0: np.ndarray | None = None) -> Result:
+    """Solve every point of ``inp`` from the starting values ``u0`` (P, nc) and ``i0`` (P,)."""
+    p = inp.points
+    idx = np.arange(p)
+    u = np.array(u0, dtype=float, copy=True)
+    ionic = np.array(i0, dtype=float, copy=True)
+    if inp.fixed_ionic is not None:
+        ionic = np.array(inp.fixed_ionic, dtype=float, copy=True)
+    nq = inp.sol_a.shape[0]
+    active = np.zeros((p, nq), dtype=bool) if active0 is None else np.array(active0, dtype=bool)
+    u = _make_feasible(inp, idx, u)
+    freeze = inp.fixed_ionic is not None
+    with np.errstate(over="ignore", under="ignore", invalid="ignore", divide="ignore"):
+        budget = min(max_iter, 60)
+        u, ionic, active, lam_e, lam_s, conv, its = _iterate(inp, idx, u, ionic, active,
+                                                              freeze_ionic=freeze, max_iter=budget)
+        iterations = its
+        rest = np.nonzero(~conv)[0]
+        if rest.size and not freeze and not inp.model.ideal and max_iter > budget:
+            u_r, i_r, a_r, le_r, ls_r, c_r, its2 = _nested(inp, rest, u[rest], ionic[rest], active[rest],
+                                                             20 * max_iter)
+            u[rest], ionic[rest], active[rest] = u_r, i_r, a_r
+            lam_e[rest], lam_s[rest] = le_r, ls_r
+            conv[rest] = c_r
+            iterations += its2
+        return _final(inp, idx, u, ionic, active, lam_e, lam_s, conv, iterations)
+
+
+def _nested(inp: Inputs, idx, u, ionic, active, budget: int):
+    """Inner solve at fixed I, outer bracketed search on R(I) = I_computed − I (cannot cycle)."""
+    n = idx.size
+    cap = _ionic_cap(inp, idx)
+    lo, r_lo = np.zeros(n), np.full(n, np.nan)
+    hi, r_hi = np.full(n, np.inf), np.full(n, np.nan)
+    last = np.zeros(n)
+    conv = np.zeros(n, dtype=bool)
+    lam_e = np.zeros((n, inp.eq_rows.shape[0]))
+    lam_s = np.zeros((n, inp.sol_a.shape[0]))
+    used = 0
+    ionic = np.minimum(ionic, cap)
+    for _ in range(80):
+        u, _, active, lam_e, lam_s, inner_ok, its = _iterate(inp, idx, u, ionic.copy(), active,
+                                                             freeze_ionic=True, max_iter=200)
+        used += its
+        lng = ln_gamma(inp, idx, ionic)
+        c = concentrations(inp, idx, u, lng)
+        new_i = ionic_of(inp, idx, c, lam_e)
+        r = new_i - ionic
+        conv = inner_ok & (np.abs(r) <= 1e-11 * np.maximum(new_i, 1e-300) + 1e-18)
+        if conv.all() or used >= budget:
+            break
+        up, down = r > 0, r < 0
+        r_hi = np.where(up & (last > 0), 0.5 * r_hi, r_hi)     # Illinois modification
+        r_lo = np.where(down & (last < 0), 0.5 * r_lo, r_lo)
+        lo, r_lo = np.where(up, ionic, lo), np.where(up, r, r_lo)
+        hi, r_hi = np.where(down, ionic, hi), np.where(down, r, r_hi)
+        last = np.where(up, 1.0, np.where(down, -1.0, last))
+        cap = np.where(up & (ionic >= cap), 10.0 * cap, cap)
+        secant = (lo * r_hi - hi * r_lo) / (r_hi - r_lo)
+        bracketed = np.isfinite(hi)
+        fixed = np.minimum(new_i, cap)
+        step = np.where(bracketed, np.where(np.isfinite(secant) & (secant > lo) & (secant < hi), secant,
+                                            0.5 * (lo + hi)),
+                        np.maximum(fixed, ionic))
+        ionic = np.where(conv, ionic, step)
+    return u, ionic, active, lam_e, lam_s, conv, used
+
+
+def _ionic_cap(inp: Inputs, idx) -> np.ndarray:
+    """No ionic strength can exceed this.
+
+    Each species (other than H+ and OH-) holds at most T_j/ν_sj of any
+    component j in it; H+ and OH- are bounded by the proton total and the
+    strong base, both within |T_H| plus the other totals' protons.
+    """
+    nu = inp.nu
+    tot = np.abs(inp.totals[idx])                                  # (P, nc)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        lim = np.where(nu[None, :, 1:] > 0, tot[:, None, 1:] / np.where(nu[:, 1:] > 0, nu[:, 1:], 1.0)[None],
+                       np.inf).min(axis=2)                          # (P, ns)
+    lim = np.where(np.isfinite(lim), lim, 0.0)
+    lim[:, :2] = 0.0
+    hmax = float(np.abs(nu[:, 0]).max(initial=1.0))
+    water = tot[:, 0] + hmax * tot[:, 1:].sum(axis=1) + 1.0          # H+ and OH- (1 M covers pure water)
+    return 1.1 * (inp.inert_i[idx] + 0.5 * lim @ inp.z2 + water) + 1e-6
+
+
+def _make_feasible(inp: Inputs, idx, u: np.ndarray) -> np.ndarray:
+    """Satisfy the equalities exactly and every allowed solid's SI ≤ 0, moving non-H components only where possible."""
+    ne = inp.eq_rows.shape[0]
+    nc = inp.nu.shape[1]
+    pinned = np.zeros(nc, dtype=bool)
+    if ne:
+        e = inp.eq_rows
+        piv = []
+        for k in range(ne):
+            order = np.argsort(-np.abs(e[k]))
+            choice = next((j for j in order if e[k, j] != 0 and j not in piv and j != 0), None)
+            if choice is None:
+                choice = next((j for j in order if e[k, j] != 0 and j not in piv), None)
+            piv.append(choice)
+        piv = np.array(piv)
+        sub = e[:, piv]
+        resid = inp.eq_rhs[idx] - u @ e.T
+        try:
+            delta = np.linalg.solve(sub, resid.T).T
+        except np.linalg.LinAlgError:
+            delta = np.linalg.lstsq(sub, resid.T, rcond=None)[0].T
+        u = u.copy()
+        u[:, piv] += delta
+        pinned[piv] = True
+        pinned |= np.any(e != 0, axis=0)
+    nq = inp.sol_a.shape[0]
+    if nq:
+        free = ~pinned
+        free[0] = False
+        a = inp.sol_a
+        viol = u @ a.T - inp.sol_b[idx]
+        viol = np.where(inp.allowed[idx], viol, -np.inf)
+        weight = a @ free.astype(float)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            need = np.where(viol > 0, (viol + 1e-6) / np.where(weight > 0, weight, np.nan), 0.0)
+        shift = np.nanmax(np.where(np.isfinite(need), need, 0.0), axis=1) if nq else 0.0
+        if np.any(shift > 0):
+            u = u.copy()
+            u[:, free] -= shift[:, None]
+    return u
+
+
+def _final(inp: Inputs, idx, u, ionic, active, lam_e, lam_s, conv, iterations) -> Result:
+    lng = ln_gamma(inp, idx, ionic)
+    c = concentrations(inp, idx, u, lng)
+    if inp.model.ideal:
+        ionic = ionic_of(inp, idx, c, lam_e)
+    nq = inp.sol_a.shape[0]
+    ne = inp.eq_rows.shape[0]
+    # multipliers at the final point by least squares: g + Eᵀλ_e + A_Wᵀλ_s = 0
+    g = c @ inp.nu - inp.totals[idx]
+    scale = c @ np.abs(inp.nu) + np.abs(inp.totals[idx])
+    if ne or nq:
+        lam_e, lam_s = _multipliers(inp, g, active, 1.0 / np.maximum(scale, 1e-300))
+    amounts = np.where(active, np.maximum(lam_s, 0.0), 0.0) if nq else np.zeros((u.shape[0], 0))
+    resid = g.copy()
+    if ne:
+        resid += lam_e @ inp.eq_rows
+    if nq:
+        resid += amounts @ inp.sol_a
+        scale = scale + amounts @ np.abs(inp.sol_a)
+    rel = np.max(np.abs(resid) / np.maximum(scale, 1e-300), axis=1)
+    return Result(u=u, ionic=ionic, lng=lng, conc=c, amounts=amounts, eq_mult=lam_e, converged=conv,
+                  residual=rel, iterations=iterations)
+
+
+def _multipliers(inp: Inputs, g: np.ndarray, active: np.ndarray, weight: np.ndarray):
+    """Least-squares multipliers of the equalities and active solids at the solution.
+
+    Minimises ‖W(g + Eᵀλ_e + A_Wᵀλ_s)‖ with W the inverse balance scale of
+    each component (so trace components count as much as major ones).
+    """
+    p = g.shape[0]
+    ne = inp.eq_rows.shape[0]
+    nq = inp.sol_a.shape[0]
+    cmat = np.vstack([inp.eq_rows, inp.sol_a])                       # (m, nc)
+    mask = np.concatenate([np.ones((p, ne), dtype=bool), active], axis=1)
+    cm = cmat[None, :, :] * mask[:, :, None] * weight[:, None, :]   # (p, m, nc)
+    normal = np.matmul(cm, np.transpose(cm, (0, 2, 1)))
+    m = ne + nq
+    normal[:, np.arange(m), np.arange(m)] += np.where(mask, 0.0, 1.0)
+    rhs = -np.einsum("pmj,pj->pm", cm, g * weight)
+    try:
+        lam = np.linalg.solve(normal, rhs[:, :, None])[:, :, 0]
+    except np.linalg.LinAlgError:
+        lam = _lstsq(normal, rhs)
+    lam = np.where(mask, lam, 0.0)
+    return lam[:, :ne], lam[:, ne:]
+
+
+# --------------------------------------------------------------------------
+# starting values
+# --------------------------------------------------------------------------
+
+@dataclass(frozen=True)
+class Layout:
+    """Each system's species rows padded to a common width (for the acid–base starting values)."""
+
+    rows: np.ndarray        # (S, M) species rows, 0 where padded
+    mask: np.ndarray        # (S, M)
+    j: np.ndarray           # (S, M) bound protons (ν_H)
+    comp: np.ndarray        # (S,) component column
+    ion_cols: np.ndarray    # component columns of reactive strong ions
+    ion_rows: np.ndarray    # their species rows
+    oh_row: int = 1
+
+
+def make_layout(nu: np.ndarray, sys_rows, sys_comp, ion_cols, ion_rows) -> Layout:
+    s = len(sys_rows)
+    m = max((len(r) for r in sys_rows), default=1)
+    rows = np.zeros((s, m), dtype=int)
+    mask = np.zeros((s, m), dtype=bool)
+    for k, r in enumerate(sys_rows):
+        rows[k, :len(r)] = r
+        mask[k, :len(r)] = True
+    j = np.where(mask, nu[rows, 0], 0.0)
+    return Layout(rows, mask, j, np.array(sys_comp, dtype=int), np.array(ion_cols, dtype=int),
+                  np.array(ion_rows, dtype=int))
+
+
+def starting_values(inp: Inputs, lay: Layout, *, h_fixed: np.ndarray | None = None,
+                    sweeps: int = 4) -> tuple[np.ndarray, np.ndarray]:
+    """Starting u and I: the acid–base equilibrium with complexes left out, then a few
+    log-ratio sweeps that let the complexes take their share of each component.
+
+    ``h_fixed`` gives u_H where a pH-stat holds it.
+    """
+    p = inp.points
+    idx = np.arange(p)
+    tot = inp.totals
+    zc = np.sqrt(inp.z2)
+    with np.errstate(over="ignore", under="ignore", invalid="ignore", divide="ignore"):
+        # a first ionic strength: every component as its free species
+        base_rows = lay.rows[np.arange(lay.rows.shape[0]), lay.mask.sum(axis=1) - 1] if lay.rows.size else \
+            np.zeros(0, dtype=int)
+        i0 = inp.inert_i + 0.5 * (tot[:, lay.comp] @ inp.z2[base_rows] if base_rows.size else 0.0)
+        if lay.ion_cols.size:
+            i0 = i0 + 0.5 * tot[:, lay.ion_cols] @ inp.z2[lay.ion_rows]
+        if inp.fixed_ionic is not None:
+            i0 = np.array(inp.fixed_ionic, dtype=float)
+        u = np.zeros((p, inp.nu.shape[1]))
+        for _ in range(2):
+            lng = ln_gamma(inp, idx, i0)
+            x = _acid_base_x(inp, lay, lng, h_fixed)
+            u[:, 0] = x
+            if lay.rows.size:
+                w = (inp.lnk[:, lay.rows] - lng[:, lay.rows] + lay.j[None] * x[:, None, None])
+                w = np.where(lay.mask[None], w, -np.inf)
+                top = w.max(axis=2)
+                lse = top + np.log(np.exp(w - top[:, :, None]).sum(axis=2))
+                u[:, lay.comp] = np.log(tot[:, lay.comp]) - lse
+            if lay.ion_cols.size:
+                u[:, lay.ion_cols] = np.log(tot[:, lay.ion_cols]) + lng[:, lay.ion_rows]
+            if inp.fixed_ionic is not None or inp.model.ideal:
+                break
+            c = concentrations(inp, idx, u, lng)
+            i0 = ionic_of(inp, idx, c)
+        # complexes: damped log-ratio updates of each non-H component
+        nu = inp.nu
+        comps = np.ones(nu.shape[1], dtype=bool)
+        comps[0] = False
+        comps &= ~np.any(inp.eq_rows != 0, axis=0) if inp.eq_rows.size else True
+        if sweeps and nu.shape[0] > 2 + lay.mask.sum() + lay.ion_cols.size:
+            pos = np.where(nu > 0, nu, 0.0)
+            for _ in range(sweeps):
+                c = concentrations(inp, idx, u, lng)
+                m = c @ pos
+                m2 = c @ (pos * pos)
+                nbar = np.maximum(m2 / np.maximum(m, 1e-300), 1.0)
+                step = np.log(tot / np.maximum(m, 1e-300)) / nbar
+                step = np.clip(np.where(np.isfinite(step), step, 0.0), -STEP_MAX, STEP_MAX)
+                u[:, comps] += step[:, comps]
+        del zc
+    return u, i0
+
+
+def _acid_base_x(inp: Inputs, lay: Layout, lng: np.ndarray, h_fixed) -> np.ndarray:
+    """u_H of the acid–base equilibrium at fixed γ (complexes left out): a bracketed Newton solve."""
+    p = inp.points
+    if h_fixed is not None:
+        return np.asarray(h_fixed, dtype=float) * np.ones(p)
+    t_h = inp.totals[:, 0]
+    lnk_oh = inp.lnk[:, lay.oh_row] - lng[:, lay.oh_row]
+    lng_h = lng[:, 0]
+    if lay.rows.size:
+        w0 = np.where(lay.mask[None], inp.lnk[:, lay.rows] - lng[:, lay.rows], -np.inf)
+        tot = inp.totals[:, lay.comp]
+    lo = np.full(p, -60.0)
+    hi = np.full(p, 25.0)
+    x = np.full(p, -7.0 * _LN10)
+    for _ in range(100):
+        hc = np.exp(x - lng_h)
+        ohc = np.exp(lnk_oh - x)
+        f = hc - ohc - t_h
+        df = hc + ohc
+        if lay.rows.size:
+            w = w0 + lay.j[None] * x[:, None, None]
+            w = w - w.max(axis=2, keepdims=True)
+            e = np.exp(w)
+            s0 = e.sum(axis=2)
+            m1 = (e * lay.j).sum(axis=2) / s0
+            m2 = (e * lay.j * lay.j).sum(axis=2) / s0
+            f = f + (tot * m1).sum(axis=1)
+            df = df + (tot * np.maximum(m2 - m1 * m1, 0.0)).sum(axis=1)
+        lo = np.where(f < 0, x, lo)
+        hi = np.where(f > 0, x, hi)
+        newton = x - f / df
+        bad = ~np.isfinite(newton) | (newton <= lo) | (newton >= hi)
+        x_new = np.where(bad, 0.5 * (lo + hi), newton)
+        if np.all(np.abs(x_new - x) < 1e-10) or np.all(f == 0):
+            x = x_new
+            break
+        x = x_new
+    return x
+
+
+# --------------------------------------------------------------------------
+# derivatives at the solution (implicit-function theorem)
+# --------------------------------------------------------------------------
+
+def jacobian(inp: Inputs, res: Result, idx=None) -> np.ndarray:
+    """The Jacobian of the solved equations at the solution, (P, n, n).
+
+    Unknowns, in order: u (nc), I, the equality multipliers (ne), the solid
+    amounts (nq; an identity row keeps an absent solid at 0).  Equations:
+    mass balances Σν c + Eᵀλ + A_Wᵀn − T, the ionic-strength equation, the
+    equalities E u − e and the present solids' A_p u − b_p.
+    """
+    if idx is None:
+        idx = np.arange(inp.points)
+    nu = inp.nu
+    nc = nu.shape[1]
+    ne = inp.eq_rows.shape[0]
+    nq = inp.sol_a.shape[0]
+    p = idx.size
+    n = nc + 1 + ne + nq
+    c = res.conc[idx]
+    jac = np.zeros((p, n, n))
+    jac[:, :nc, :nc] = np.matmul(nu.T, c[:, :, None] * nu[None, :, :])
+    frozen = inp.model.ideal or inp.fixed_ionic is not None
+    if frozen:
+        jac[:, nc, nc] = -1.0
+    else:
+        dlng = d_ln_gamma(inp, idx, res.ionic[idx])
+        jac[:, :nc, nc] = (c * -dlng) @ nu
+        jac[:, nc, :nc] = 0.5 * (c * inp.z2) @ nu
+        jac[:, nc, nc] = 0.5 * np.einsum("ps,s,ps->p", c, inp.z2, -dlng) - 1.0
+    if ne:
+        jac[:, :nc, nc + 1:nc + 1 + ne] = inp.eq_rows.T
+        jac[:, nc + 1:nc + 1 + ne, :nc] = inp.eq_rows
+        if inp.counter_row is not None and not frozen:
+            mu = res.eq_mult[idx, inp.counter_row]
+            jac[:, nc, nc + 1 + inp.counter_row] = np.where(mu >= 0, 0.5, -0.5)   # base side at the own pH
+    if nq:
+        present = res.amounts[idx] > 0
+        cols = nc + 1 + ne + np.arange(nq)
+        jac[:, :nc, cols] = np.transpose(inp.sol_a[None] * present[:, :, None], (0, 2, 1))
+        jac[:, cols, :nc] = inp.sol_a[None] * present[:, :, None]
+        jac[:, cols, cols] = np.where(present, 0.0, 1.0)
+    return jac
+
+
+def linear_solve(jac: np.ndarray, rhs: np.ndarray, nc: int) -> np.ndarray:
+    """Solve J y = rhs (P, n[, k]) with the component block scaled by its diagonal."""
+    n = jac.shape[1]
+    s = np.ones((jac.shape[0], n))
+    d = np.abs(np.einsum("pjj->pj", jac[:, :nc, :nc]))
+    s[:, :nc] = 1.0 / np.sqrt(np.maximum(d, 1e-300))
+    js = jac * s[:, :, None] * s[:, None, :]
+    vec = rhs.ndim == 2
+    r = (rhs if not vec else rhs[:, :, None]) * s[:, :, None]
+    try:
+        y = np.linalg.solve(js, r)
+    except np.linalg.LinAlgError:
+        y = np.stack([np.linalg.lstsq(js[i], r[i], rcond=None)[0] for i in range(js.shape[0])])
+    y = y * s[:, :, None]
+    return y[:, :, 0] if vec else y
+
+
+def sensitivity(inp: Inputs, res: Result, d_totals: np.ndarray | None = None, d_inert_i=None,
+                d_eq_rhs: np.ndarray | None = None, d_lnk: np.ndarray | None = None) -> np.ndarray:
+    """d(u, I, λ_e, n_solids)/dp for one parameter p at every point, (P, n).
+
+    ``d_totals`` (P, nc): change of the component totals; ``d_inert_i`` (P,):
+    of the inert ionic strength; ``d_eq_rhs`` (P, ne): of the equalities'
+    right-hand sides; ``d_lnk`` (P, ns): of the species' ln K.
+    """
+    p = inp.points
+    nc = inp.nu.shape[1]
+    ne = inp.eq_rows.shape[0]
+    jac = jacobian(inp, res)
+    n = jac.shape[1]
+    rhs = np.zeros((p, n))
+    if d_totals is not None:
+        rhs[:, :nc] += d_totals
+    if d_inert_i is not None and not (inp.model.ideal or inp.fixed_ionic is not None):
+        rhs[:, nc] -= d_inert_i
+    if d_eq_rhs is not None and ne:
+        rhs[:, nc + 1:nc + 1 + ne] += d_eq_rhs
+    if d_lnk is not None:
+        c = res.conc
+        rhs[:, :nc] -= (c * d_lnk) @ inp.nu
+        if not (inp.model.ideal or inp.fixed_ionic is not None):
+            rhs[:, nc] -= 0.5 * (c * d_lnk) @ inp.z2
+    return linear_solve(jac, rhs, nc)
