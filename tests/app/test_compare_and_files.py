@@ -133,8 +133,9 @@ async def test_every_edit_is_autosaved_and_offered_back_after_a_dropped_session(
         assert autosaved() == [edited]                  # now this session's own autosave holds it
 
 
-async def test_a_hang_up_writes_the_pending_autosave_at_once(acetate_buffer, autosaved):
+async def test_a_hang_up_writes_the_pending_autosave_at_once(acetate_buffer, autosaved, monkeypatch):
     # What the SIGHUP/SIGTERM handler calls: the edit is on disk before the delayed write is due.
+    monkeypatch.setattr("tui.app.AUTOSAVE_DELAY_S", 60.0)      # not due during this test, however slow
     app = ExplorerApp(acetate_buffer)
     async with app.run_test(size=(80, 24)) as pilot:
         await pilot.press("right")
