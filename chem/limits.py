@@ -26,8 +26,8 @@ PH_MAX = 14.0
 #: reference temperature of the compilations the library cites).
 STANDARD_TEMPERATURE_C = 25.0
 
-__all__ = ["PH_MIN", "PH_MAX", "T_MIN_C", "T_MAX_C", "STANDARD_TEMPERATURE_C", "check_ph", "check_ph_range",
-           "check_temperature", "neutral_ph", "ph_grid"]
+__all__ = ["PH_MIN", "PH_MAX", "T_MIN_C", "T_MAX_C", "STANDARD_TEMPERATURE_C", "LOG_C_FLOOR", "check_ph",
+           "check_ph_range", "check_temperature", "neutral_ph", "ph_grid"]
 
 
 def check_ph(value: float, what: str = "pH") -> float:
@@ -82,3 +82,7 @@ def neutral_ph(temperature_c: float) -> float:
     from .water import pkw
 
     return float(pkw(check_temperature(temperature_c))) / 2.0
+
+#: Lowest log10 C (mol/L) drawn in a log C plot: lower values are clipped to it for drawing
+#: only (common practice: the range of interest of aqueous log C diagrams); data keep their values.
+LOG_C_FLOOR = -14.0

@@ -600,24 +600,13 @@ def clean_stale_temps(folder, target: str | None = None, *, older_than: float = 
     return removed
 
 
-def write_atomic(path, text: str, *, overwrite: bool = False) -> Path:
-    """Write ``text`` to ``path`` atomically; refuse to replace a file unless ``overwrite``.
-
-    Only a regular file is ever written or replaced: a symbolic link, a device, a pipe or
-    a folder at ``path`` is refused even with ``overwrite`` (the path is never followed into
-    something else). The new file follows the user's umask like any file the user creates;
-    a replaced file keeps its permissions. Problems raise :class:`PresetError` (one line).
-    """
+def _target(path, overwrite: bool) -> os.stat_result | None:
+    """What is at ``path`` now (None: nothing), if a save may go there; raises :class:`PresetError`."""
     label = str(path)
     if not label.strip():
         raise PresetError("no file name given")
-    p = Path(path)
     try:
-        data = text.encode("utf-8")
-    except UnicodeEncodeError:
-        raise PresetError(f"{label}: the text cannot be written as UTF-8") from None
-    try:
-        info: os.stat_result | None = os.lstat(p)
+        info: os.stat_result | None = os.lstat(path)
     except (FileNotFoundError, NotADirectoryError):
         info = None
     except OSError as exc:
@@ -631,8 +620,42 @@ def write_atomic(path, text: str, *, overwrite: bool = False) -> Path:
             raise PresetError(f"{label}: is not a regular file (a device, pipe or socket); not replaced")
         if not overwrite:
             raise PresetError(f"{label}: already exists; not overwritten (choose another name or confirm overwrite)")
-    if not p.parent.is_dir():
-        raise PresetError(f"{label}: folder {p.parent} does not exist")
+    if not Path(path).parent.is_dir():
+        raise PresetError(f"{label}: folder {Path(path).parent} does not exist")
+    return info
+
+
+def check_save_target(path, *, overwrite: bool = False) -> None:
+    """Raise :class:`PresetError` now if :func:`write_atomic` could not write ``path``.
+
+    For a command that should refuse before doing its work: the same checks as the write,
+    and a trial file created and removed in the folder (the folder may refuse writing).
+    """
+    _target(path, overwrite)
+    p = Path(path)
+    trial = p.parent / f".{p.name}.{secrets.token_hex(4)}.tmp"
+    try:
+        os.close(os.open(trial, os.O_WRONLY | os.O_CREAT | os.O_EXCL | getattr(os, "O_NOFOLLOW", 0), 0o600))
+        os.unlink(trial)
+    except OSError as exc:
+        raise PresetError(f"{path}: cannot write ({exc.strerror or exc})") from None
+
+
+def write_atomic(path, text: str, *, overwrite: bool = False) -> Path:
+    """Write ``text`` to ``path`` atomically; refuse to replace a file unless ``overwrite``.
+
+    Only a regular file is ever written or replaced: a symbolic link, a device, a pipe or
+    a folder at ``path`` is refused even with ``overwrite`` (the path is never followed into
+    something else). The new file follows the user's umask like any file the user creates;
+    a replaced file keeps its permissions. Problems raise :class:`PresetError` (one line).
+    """
+    label = str(path)
+    info = _target(path, overwrite)
+    p = Path(path)
+    try:
+        data = text.encode("utf-8")
+    except UnicodeEncodeError:
+        raise PresetError(f"{label}: the text cannot be written as UTF-8") from None
     clean_stale_temps(p.parent, p.name)
     tmp = p.parent / f".{p.name}.{secrets.token_hex(4)}.tmp"
     flags = os.O_WRONLY | os.O_CREAT | os.O_EXCL | getattr(os, "O_NOFOLLOW", 0) | getattr(os, "O_CLOEXEC", 0)

@@ -76,3 +76,24 @@ def one_line(message: object, limit: int = MESSAGE_LIMIT) -> str:
     words = text.split(" ")
     text = " ".join(clip(w, LONG_RUN, 24) if len(w) > LONG_RUN else w for w in words)
     return clip(text, limit, limit // 3)
+
+
+def safe_json(text: str) -> str:
+    """JSON text with every unsafe character that JSON leaves as it is written as a ``\\uXXXX`` escape.
+
+    ``json.dumps`` escapes only U+0000-U+001F; C1 controls (U+0080-U+009F), bidirectional
+    overrides and the like would still reach the terminal. The escapes keep the JSON valid
+    and its values unchanged.
+    """
+    if text.isprintable():
+        return text
+    out = []
+    for ch in text:
+        if ch == "\n" or ch.isprintable() or ch == " " or unicodedata.category(ch) not in _UNSAFE:
+            out.append(ch)
+        elif ord(ch) > 0xFFFF:
+            code = ord(ch) - 0x10000
+            out.append(f"\\u{0xD800 + (code >> 10):04x}\\u{0xDC00 + (code & 0x3FF):04x}")
+        else:
+            out.append(f"\\u{ord(ch):04x}")
+    return "".join(out)
