@@ -377,3 +377,107 @@ async def test_a_folder_among_the_autosaves_is_left_alone(acetate_buffer, data_d
         await pilot.press("q", "d")
         await pilot.pause()
     assert app.return_value == 0 and (data_dir / "session.toml").is_dir()
+
+
+# -- 3. text from a shared file never reaches the terminal raw -----------------------------------
+
+ESC = "\x1b]0;owned\x07\x1b[2J\x9b31m\u202e"          # OSC title, clear screen, C1 CSI, bidi override
+MARKUP = "[/][@click=app.quit]x[/]"                   # read as markup, this would crash or act
+
+
+def _toml(text: str) -> str:
+    return '"' + "".join(ch if ch.isprintable() else f"\\u{ord(ch):04x}" for ch in text) + '"'
+
+
+def _hostile_text(name: str) -> str:
+    evil = _toml(f"evil{ESC}{MARKUP}acid")
+    return f'''format = 1
+title = {_toml(f"Title{ESC}{MARKUP}")}
+notes = {_toml(f"notes{ESC}")}
+temperature_c = 37.0
+[[ingredient]]
+name = {evil}
+conc = "10 mM"
+[[ingredient]]
+name = "NaCl"
+conc = "50 mM"
+[[custom]]
+name = {evil}
+pKa = [4.5]
+charge_fully_protonated = 0
+protons = 1
+species = [{_toml(f"H{ESC}A{MARKUP}")}, {_toml(f"A{ESC}-")}]
+'''
+
+
+def _unsafe(lines) -> list[str]:
+    import unicodedata
+
+    return [line for line in lines if any(unicodedata.category(ch) in ("Cc", "Cf", "Zl", "Zp") for ch in line)]
+
+
+async def test_text_from_a_shared_preset_is_shown_escaped_everywhere(data_dir, settle, screen_lines, tmp_path):
+    # Every place the explorer shows a title, a name, a note or a message quoting them.
+    file = tmp_path / f"shared{ESC[:6]}.toml"
+    file.write_text(_hostile_text("x"), encoding="utf-8")
+    (data_dir / "presets").mkdir(parents=True)
+    (data_dir / "presets" / f"theirs{ESC[:9]}.toml").write_text(_hostile_text("y"), encoding="utf-8")
+    (data_dir / "presets" / "broken.toml").write_text(
+        'format = 1\n[[ingredient]]\nname = ' + _toml(f"no such{ESC}{MARKUP}") + '\nconc = "1 mM"\n',
+        encoding="utf-8")
+    mixture = chem.load_preset(file)
+    app = ExplorerApp(mixture, source=file.name)
+    seen: list[str] = []
+
+    async def look(what: str) -> None:
+        await settle(pilot)
+        lines = screen_lines(app)
+        assert not _unsafe(lines), (what, _unsafe(lines))
+        assert app.is_running, what
+        seen.append(what)
+
+    async with app.run_test(size=(120, 40), notifications=True) as pilot:
+        await look("main screen")
+        assert "\\x1b" in "\n".join(screen_lines(app))  # the escapes are shown, not acted on
+        for _ in app.kinds:                              # every plot: legends, titles, axis labels
+            await pilot.press("g")
+            await look(f"plot {app.plot_kind}")
+        await pilot.press("w")
+        await look("notice details")
+        await pilot.press("escape", "o")
+        await look("preset picker")
+        await pilot.press(*"broken", "enter")
+        await look("picker: a broken preset")
+        await pilot.press("escape")
+        await pilot.press("n", *"evil")
+        await look("finder")
+        await pilot.press("escape", "s")
+        await look("save dialog")
+        await pilot.press("escape", "v")
+        await look("titration setup")
+        await pilot.press("escape")
+        app.plot_kind = "sweep"
+        await pilot.press("v")
+        await look("sweep setup (what varies: the flask's names)")
+        await pilot.press("escape", "b")
+        await look("recipe form")
+        await pilot.press("escape", "enter", *"5 kg")
+        await look("amount error")
+        await pilot.press("escape")
+        app.notify(f"a message quoting {ESC}{MARKUP}")   # every toast goes through the one helper
+        await look("toast")
+        assert any("\\x1b" in n.message for n in app._notifications)
+    assert len(seen) >= 17
+
+
+async def test_the_restore_offer_shows_a_hostile_title_escaped(orphan, acetate_buffer, screen_lines, tmp_path):
+    file = tmp_path / "h.toml"
+    file.write_text(_hostile_text("x"), encoding="utf-8")
+    orphan(chem.load_preset(file))
+    app = ExplorerApp(acetate_buffer)
+    async with app.run_test(size=(100, 30)) as pilot:
+        await pilot.pause()
+        assert isinstance(app.screen, Choice)
+        assert not _unsafe(screen_lines(app))
+        assert "[@click=app.quit]" in "\n".join(screen_lines(app))
+        await pilot.press("escape")

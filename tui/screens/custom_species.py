@@ -14,6 +14,7 @@ from textual.widgets import Input, Label
 import chem
 from chem.presets import custom_reagent
 from tui.screens.base import Dialog
+from tui.text import printable
 from tui.widgets.amount_input import AmountInput
 
 _ION_ENTRY = re.compile(r"^\s*(?:(\d+)\s*(?:x|×|\*)?\s*)?([A-Za-z][A-Za-z0-9]*[+-])\s*(?:(?:x|×|\*)?\s*(\d+))?\s*$")
@@ -129,7 +130,7 @@ class CustomSpeciesForm(Dialog["chem.Ingredient | None"]):
         try:
             ingredient = self.build()
         except (FormError, chem.ChemError) as exc:
-            self.query_one("#custom-error", Label).update(Content(str(exc)))
+            self.query_one("#custom-error", Label).update(Content(printable(exc)))
             return
         self.dismiss(ingredient)
 

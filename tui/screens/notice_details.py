@@ -10,6 +10,7 @@ from textual.widgets import Label, Static
 
 import chem
 from tui.screens.base import Dialog
+from tui.text import printable
 
 #: What each warning means for the numbers, by code. Codes not listed get a general note.
 MEANING = {
@@ -47,12 +48,12 @@ class NoticeDetails(Dialog[None]):
                     yield Static("None for this mixture. The numbers still are model estimates.")
                 for notice in eq.cautions:
                     yield Static(Content.assemble(("CAUTION ", "bold $error"), (f"[{notice.code}]", "dim"), "\n",
-                                                  notice.message), classes="notice")
+                                                  printable(notice.message)), classes="notice")
                 if eq.cautions:
                     yield Static(Content(CAUTION_MEANING), classes="notice meaning")
                 for notice in eq.warnings:
                     yield Static(Content.assemble(("warning ", "bold $warning"), (f"[{notice.code}]", "dim"), "\n",
-                                                  notice.message, "\n",
+                                                  printable(notice.message), "\n",
                                                   (MEANING.get(notice.code, GENERAL), "italic")), classes="notice")
             yield Label("esc close", classes="dialog-hint")
 

@@ -39,6 +39,7 @@ from textual.worker import Worker, WorkerState, get_current_worker
 
 import chem
 from tui.screens.base import Dialog
+from tui.text import printable
 from tui.widgets.curve_kinds import read_celsius, read_number
 
 if TYPE_CHECKING:                    # chem.recipe needs scipy.optimize (~0.5 s): loaded in the worker only
@@ -108,7 +109,7 @@ class Cycler(Widget, can_focus=True):
 
     def render(self) -> Content:
         position = f"  {self.choices.index(self.value) + 1}/{len(self.choices)}" if len(self.choices) > 1 else ""
-        return Content.assemble(("◂ ", "dim"), self.value, (" ▸", "dim"), (position, "dim"))
+        return Content.assemble(("◂ ", "dim"), printable(self.value), (" ▸", "dim"), (position, "dim"))
 
 
 @dataclass(frozen=True)
@@ -413,6 +414,7 @@ class RecipeForm(Dialog["Recipe | tuple[str, Recipe] | None"]):
 
 def show_text(label: Label, text: str) -> None:
     """Show ``text`` in ``label`` as it is (never read as markup), redrawing only when it changed."""
+    text = printable(text)
     if str(label.content) != text:
         label.update(Content(text))
 

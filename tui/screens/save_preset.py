@@ -14,6 +14,7 @@ from textual.widgets import Input, Label
 from tui import storage
 from tui.screens.base import Dialog
 from tui.screens.choice import Choice
+from tui.text import printable
 
 
 @dataclass(frozen=True)
@@ -33,8 +34,8 @@ class SavePreset(Dialog["SaveRequest | None"]):
 
     def __init__(self, name: str, title: str) -> None:
         super().__init__()
-        self.initial_name = name
-        self.initial_title = title
+        self.initial_name = printable(name)
+        self.initial_title = printable(title)         # a title from a shared file: shown (and kept) escaped
 
     def compose(self) -> ComposeResult:
         with Vertical(classes="dialog"):
@@ -52,7 +53,7 @@ class SavePreset(Dialog["SaveRequest | None"]):
         try:
             storage.preset_path(event.value)
         except storage.StorageError as exc:
-            self.query_one("#save-error", Label).update(Content(str(exc)))
+            self.query_one("#save-error", Label).update(Content(printable(exc)))
         else:
             self.query_one("#save-error", Label).update("")
 
@@ -63,7 +64,7 @@ class SavePreset(Dialog["SaveRequest | None"]):
         try:
             path = storage.preset_path(name)
         except storage.StorageError as exc:
-            self.query_one("#save-error", Label).update(Content(str(exc)))
+            self.query_one("#save-error", Label).update(Content(printable(exc)))
             self.query_one("#save-name", Input).focus()
             return
         if not path.exists():

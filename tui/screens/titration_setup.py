@@ -27,6 +27,7 @@ import chem
 from tui.screens.base import Dialog
 from tui.screens.finder import matching_reagents
 from tui.screens.recipe_form import first_problem, named, show_text
+from tui.text import printable
 from tui.widgets.curve_kinds import (DEFAULT_SAMPLE, DEFAULT_TITRANT_CONC, DEFAULT_TO, TitrationSettings)
 
 #: Most titrant matches listed under the field while typing.
@@ -154,7 +155,7 @@ class TitrationSetup(Dialog["TitrationSettings | None"]):
         except chem.ChemError:
             exact = False
         if [r.name for r in found] != [listing.get_option_at_index(i).id for i in range(listing.option_count)]:
-            listing.set_options([Option(Content.assemble((r.name, "bold"), "  ", (r.formula, "dim")), id=r.name)
+            listing.set_options([Option(Content.assemble((printable(r.name), "bold"), "  ", (printable(r.formula), "dim")), id=r.name)
                                  for r in found])
             if found:
                 listing.highlighted = 0
