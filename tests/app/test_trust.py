@@ -481,3 +481,30 @@ async def test_the_restore_offer_shows_a_hostile_title_escaped(orphan, acetate_b
         assert not _unsafe(screen_lines(app))
         assert "[@click=app.quit]" in "\n".join(screen_lines(app))
         await pilot.press("escape")
+
+
+# -- 4. the front end asks chem -----------------------------------------------------------------------
+
+def test_the_default_titrant_follows_neutral_water_at_the_working_temperature(library):
+    from tui.widgets.curve_kinds import default_titration
+
+    # 0.1 uM NaOH at 37 °C: pH about 6.95, below 7 but above neutral water there (pKw/2 = 6.81): basic.
+    warm = chem.Mixture((chem.Ingredient(library.reagent("NaOH"), 1e-7),), temperature_c=37.0)
+    result = chem.solve(warm)
+    assert 6.81 < result.pH < 7.0
+    assert default_titration(result).titrant_name == "HCl"
+    acidic = chem.solve(chem.Mixture((chem.Ingredient(library.reagent("HCl"), 2e-8),)))   # pH 6.9 at 25 °C
+    assert acidic.pH < 7.0 and default_titration(acidic).titrant_name == "NaOH"
+
+
+def test_forms_read_temperatures_as_the_line_commands_do():
+    from chem.units import parse_temperature
+    from tui.widgets.curve_kinds import read_celsius
+
+    assert read_celsius("37 ℃") == parse_temperature("37 ℃") == 37.0
+    for bad in ("37 K", "101 °C"):
+        with pytest.raises(chem.UnitError) as form:
+            read_celsius(bad, "temperature")
+        with pytest.raises(chem.UnitError) as line:
+            parse_temperature(bad, "temperature")
+        assert str(form.value) == str(line.value)
