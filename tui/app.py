@@ -32,7 +32,7 @@ from textual.screen import Screen
 from textual.theme import Theme
 from textual.timer import Timer
 from textual.widget import MountError
-from textual.widgets import Footer
+from textual.widgets import Footer, Static
 from textual.worker import Worker, WorkerCancelled, WorkerFailed, WorkerState, get_current_worker
 
 import chem
@@ -69,6 +69,8 @@ HISTORY_LIMIT = 500
 AUTOSAVE_DELAY_S = 0.3
 #: A plot that took longer than this (s) to draw no longer holds back the numbers of the next edit.
 SLOW_PLOT_S = 0.025
+#: Smallest terminal the four panels fit in (columns, rows); below it a notice asks for a larger window.
+MIN_SIZE = (60, 16)
 
 NIGHT = Theme(
     name="protomix-night", dark=True,
@@ -205,6 +207,7 @@ class ExplorerApp(App[int]):
             yield SpeciesTable(id="species").data_bind(ExplorerApp.result, ExplorerApp.pinned)
             yield PlotArea(id="chart")
         yield NoticeBar(id="notices").data_bind(ExplorerApp.result)
+        yield Static("", id="too-small")
 
     def on_mount(self) -> None:
         self.query_one("#flask").border_title = "Flask"
@@ -263,8 +266,18 @@ class ExplorerApp(App[int]):
 
     def on_resize(self, event: events.Resize) -> None:
         main = self.screen_stack[0]
-        main.set_class(event.size.width >= 110, "-wide")
-        main.set_class(event.size.height >= 34, "-tall")
+        width, height = event.size
+        main.set_class(width >= 110, "-wide")
+        main.set_class(height >= 34, "-tall")
+        small = width < MIN_SIZE[0] or height < MIN_SIZE[1]
+        if small:
+            self.query_one("#too-small", Static).update(
+                f"The terminal is {width}×{height}: too small.\nEnlarge the window to at least "
+                f"{MIN_SIZE[0]}×{MIN_SIZE[1]}.\nKeys still work: s saves, q quits.")
+        was_small = main.has_class("-too-small")
+        main.set_class(small, "-too-small")
+        if was_small and not small and self.screen is main:
+            self.query_one(FlaskList).focus()
 
     # -- state -------------------------------------------------------------------------------
     @property

@@ -508,3 +508,42 @@ def test_forms_read_temperatures_as_the_line_commands_do():
         with pytest.raises(chem.UnitError) as line:
             parse_temperature(bad, "temperature")
         assert str(form.value) == str(line.value)
+
+
+# -- 5. small things a user sees ----------------------------------------------------------------------
+
+async def test_a_terminal_too_small_says_so_and_the_panels_come_back(acetate_buffer, screen_lines):
+    app = ExplorerApp(acetate_buffer)
+    async with app.run_test(size=(40, 12)) as pilot:
+        await pilot.pause()
+        shown = "\n".join(screen_lines(app))
+        assert "40×12" in shown and "Enlarge the window" in shown
+        assert not app.query_one("#flask").display or not app.query_one("#flask").region.width
+        await pilot.resize_terminal(80, 24)
+        await pilot.pause()
+        flask = app.query_one("#flask")
+        assert flask.region.width > 20 and "Enlarge" not in "\n".join(screen_lines(app))
+        assert app.focused is flask
+        await pilot.resize_terminal(40, 12)
+        await pilot.press("q")
+        await pilot.pause()
+    assert app.return_value == 0
+
+
+@pytest.mark.parametrize("width", [60, 66, 72, 80])
+async def test_nothing_shows_past_the_palette_key(acetate_buffer, screen_lines, width):
+    app = ExplorerApp(acetate_buffer)
+    async with app.run_test(size=(width, 24)) as pilot:
+        await pilot.pause(0.3)
+        assert screen_lines(app)[-1].rstrip().endswith("^p palette")
+
+
+def test_the_demo_notes_name_the_keys_that_exist():
+    from tui.app import COMMANDS
+
+    notes = chem.demo_mixture().notes
+    keys = {key for c in COMMANDS for key in c.key.split(",")}
+    assert "+/-" not in notes
+    for key in ("t", "T", "m"):
+        assert f"{key} " in notes or f"({key})" in notes
+        assert key in keys
