@@ -547,3 +547,31 @@ def test_the_demo_notes_name_the_keys_that_exist():
     for key in ("t", "T", "m"):
         assert f"{key} " in notes or f"({key})" in notes
         assert key in keys
+
+
+def test_species_columns_never_run_together(library):
+    import re
+
+    from tui.widgets.species_table import NAME_WIDTH_MAX, species_rows
+
+    # Basic phosphate: H3PO4 near 1e-13 M, so its C (…e-13) sits right before a log C of -12.x.
+    eq = chem.solve(chem.loads_preset('''format = 1
+[[ingredient]]
+name = "Na3PO4"
+conc = "10 mM"
+[[ingredient]]
+name = "compound 7 hydrochloride, batch 2024-11"
+conc = "1 mM"
+[[custom]]
+name = "compound 7 hydrochloride, batch 2024-11"
+pKa = [8.4]
+charge_fully_protonated = 1
+protons = 1
+counter_ions = { "Cl-" = 1 }
+'''))
+    heading, rows = species_rows(eq, eq)
+    assert any(float(sp.log_c) < -10 for sp in eq.species)
+    for (numbers, _system), sp in zip(rows, eq.species):
+        assert not re.search(r"e[-+]\d+-\d", numbers), numbers      # "5.45e-11-10.26"
+        assert f"{sp.conc:.2e}" in numbers                          # in view, even after a long name
+        assert numbers.index(f"{sp.conc:.2e}") <= NAME_WIDTH_MAX + 1 + 8

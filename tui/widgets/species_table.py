@@ -9,7 +9,7 @@ from __future__ import annotations
 
 import math
 
-from rich.cells import cell_len
+from rich.cells import cell_len, set_cell_size
 from rich.segment import Segment
 from textual.app import ComposeResult
 from textual.containers import Vertical, VerticalScroll
@@ -29,9 +29,15 @@ COLUMNS = (("C / M", 8), ("log C", 6), ("α", 5), ("γ", 5))
 DELTA_COLUMN = ("Δlog C", 6)
 
 
+#: Widest species name shown in full; a longer one is cut with an ellipsis, so the numbers stay in view.
+NAME_WIDTH_MAX = 16
+
+
 def _pad(text: str, width: int) -> str:
-    """``text`` padded with spaces to ``width`` terminal cells (wide characters count double)."""
-    return text + " " * max(width - cell_len(text), 0)
+    """``text`` in exactly ``width`` terminal cells: padded, or cut with an ellipsis (wide characters count double)."""
+    if cell_len(text) > width:
+        return set_cell_size(text, width - 1) + "…"
+    return text + " " * (width - cell_len(text))
 
 
 def _gamma(value: float) -> str:
@@ -54,7 +60,7 @@ def species_rows(eq: chem.Equilibrium, pinned: chem.Equilibrium | None) -> tuple
     """The heading and, per species, (numbers part, system) as fixed-width text."""
     columns = COLUMNS + ((DELTA_COLUMN,) if pinned is not None else ())
     names = [printable(sp.name) for sp in eq.species]          # names can come from a shared preset
-    name_width = max(7, *(cell_len(n) for n in names))
+    name_width = min(max(7, *(cell_len(n) for n in names)), NAME_WIDTH_MAX)
     heading = _pad("species", name_width) + "".join(f" {t:>{w}}" for t, w in columns) + "  system"
     before = {(s.system, s.name): s for s in pinned.species} if pinned is not None else None
     rows = []
