@@ -24,9 +24,9 @@ from rich.style import Style
 
 from textual import events, on, work
 from textual.app import App, ComposeResult, SystemCommand
-from textual.notifications import SeverityLevel
 from textual.binding import Binding
 from textual.containers import Horizontal
+from textual.notifications import SeverityLevel
 from textual.reactive import var
 from textual.screen import Screen
 from textual.theme import Theme
@@ -511,6 +511,7 @@ class ExplorerApp(App[int]):
         problems: list[str] = []
         try:
             self._autosave = storage.Autosave.begin()
+            self._autosave.holds = self._start          # nothing to keep until the first edit
         except storage.StorageError as exc:
             problems.append(f"Autosave is off: {exc}. Save your work with s.")
         self._autosave_on = self._autosave is not None

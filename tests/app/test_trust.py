@@ -575,3 +575,10 @@ counter_ions = { "Cl-" = 1 }
         assert not re.search(r"e[-+]\d+-\d", numbers), numbers      # "5.45e-11-10.26"
         assert f"{sp.conc:.2e}" in numbers                          # in view, even after a long name
         assert numbers.index(f"{sp.conc:.2e}") <= NAME_WIDTH_MAX + 1 + 8
+
+
+async def test_a_session_without_edits_leaves_nothing_to_offer(acetate_buffer, autosaved):
+    app = ExplorerApp(acetate_buffer)
+    async with app.run_test(size=(80, 24)) as pilot:   # ends without quitting, but nothing was changed
+        await pilot.pause()
+    assert autosaved() == []
