@@ -39,7 +39,7 @@ import chem
 from chem.activity import MODELS
 from tui import storage
 from tui.messages import AutosaveWritten, Plotted, Solved
-from tui.text import one_line, printable
+from tui.text import one_line
 from tui.widgets.flask_list import FlaskList
 from tui.widgets.notice_bar import NoticeBar
 from tui.widgets.plot_area import PlotArea, prepare
