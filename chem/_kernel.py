@@ -67,6 +67,7 @@ class Inputs:
     sol_b: np.ndarray       # (P, nq)
     allowed: np.ndarray     # (P, nq) bool: which solids may form
     fixed_ionic: np.ndarray | None = None   # (P,) hold I at these values (no self-consistency)
+    w_hess: np.ndarray | None = None        # (ns, nc·nc) ν_sj·ν_sk: the Hessian is c @ w_hess
     z_comp: np.ndarray | None = None        # (nc,) charge of each component; with inert_q, the charge balance
     inert_q: np.ndarray | None = None       # (P,) net charge of the inert ions
     counter_row: int | None = None
@@ -153,9 +154,15 @@ def _kkt_step(inp: Inputs, idx, u, c, active):
     ne = inp.eq_rows.shape[0]
     nq = inp.sol_a.shape[0]
     g = c @ nu - inp.totals[idx]
-    hess = np.matmul(nu.T, c[:, :, None] * nu[None, :, :])
+    if inp.w_hess is not None:
+        hess = (c @ inp.w_hess).reshape(p, nc, nc)
+    else:
+        hess = np.matmul(nu.T, c[:, :, None] * nu[None, :, :])
     diag = np.einsum("pjj->pj", hess)
-    s = 1.0 / np.sqrt(np.maximum(diag, 1e-300))
+    # scale by the diagonal, but never beyond a trillionth of the component's total: a component held
+    # entirely in a solid has almost no free species, and an unbounded scale would swamp its row
+    floor = np.maximum(1e-12 * np.abs(inp.totals[idx]), 1e-300)
+    s = 1.0 / np.sqrt(np.maximum(diag, floor))
     n = nc + ne + nq
     charge = inp.z_comp is not None and nc > 1
     if charge:
@@ -455,23 +462,22 @@ def _nested(inp: Inputs, idx, u, ionic, active, budget: int):
 def _ionic_cap(inp: Inputs, idx) -> np.ndarray:
     """No ionic strength can exceed this.
 
-    Each species (other than H+ and OH-) holds at most T_j/ν_sj of any
-    component j in it; H+ and OH- are bounded by the proton total and the
-    strong base, both within |T_H| plus the other totals' protons.
+    A species holds at most T_j/ν_sj of any component j in it, so charging
+    each species to one of its components bounds ½ Σ z² c by ½ Σ_j T_j M_j;
+    H+ and OH- are bounded by the proton total and the strong base, both
+    within |T_H| plus the other totals' protons (and 1 M covers pure water).
     """
     nu = inp.nu
     tot = np.abs(inp.totals[idx])                                  # (P, nc)
-    if nu.shape[1] > 1:
-        with np.errstate(divide="ignore", invalid="ignore"):
-            lim = np.where(nu[None, :, 1:] > 0, tot[:, None, 1:] / np.where(nu[:, 1:] > 0, nu[:, 1:], 1.0)[None],
-                           np.inf).min(axis=2)                      # (P, ns)
-    else:
-        lim = np.zeros((tot.shape[0], nu.shape[0]))
-    lim = np.where(np.isfinite(lim), lim, 0.0)
-    lim[:, :2] = 0.0
+    weight = np.zeros(nu.shape[1])
+    for r in range(2, nu.shape[0]):
+        pos = np.nonzero(nu[r, 1:] > 0)[0]
+        if pos.size:
+            j = 1 + pos[0]
+            weight[j] += inp.z2[r] / nu[r, j]
     hmax = float(np.abs(nu[:, 0]).max(initial=1.0))
-    water = tot[:, 0] + hmax * tot[:, 1:].sum(axis=1) + 1.0          # H+ and OH- (1 M covers pure water)
-    return 1.1 * (inp.inert_i[idx] + 0.5 * lim @ inp.z2 + water) + 1e-6
+    water = tot[:, 0] + hmax * tot[:, 1:].sum(axis=1) + 1.0
+    return 1.1 * (inp.inert_i[idx] + 0.5 * tot @ weight + water) + 1e-6
 
 
 def _make_feasible(inp: Inputs, idx, u: np.ndarray) -> np.ndarray:
@@ -595,7 +601,7 @@ def make_layout(nu: np.ndarray, sys_rows, sys_comp, ion_cols, ion_rows) -> Layou
 
 
 def starting_values(inp: Inputs, lay: Layout, *, h_fixed: np.ndarray | None = None,
-                    sweeps: int = 4) -> tuple[np.ndarray, np.ndarray]:
+                    sweeps: int = 6) -> tuple[np.ndarray, np.ndarray]:
     """Starting u and I: the acid–base equilibrium with complexes left out, then a few
     log-ratio sweeps that let the complexes take their share of each component.
 
@@ -651,7 +657,7 @@ def starting_values(inp: Inputs, lay: Layout, *, h_fixed: np.ndarray | None = No
                 m2 = c @ (pos * pos)
                 nbar = np.maximum(m2 / np.maximum(m, 1e-300), 1.0)
                 step = np.log(tot / np.maximum(m, 1e-300)) / nbar
-                step = np.clip(np.where(np.isfinite(step), step, 0.0), -STEP_MAX, STEP_MAX)
+                step = np.clip(np.where(np.isfinite(step), step, 0.0), -200.0, 200.0)
                 u[:, comps] += step[:, comps]
             if inp.fixed_ionic is None and not inp.model.ideal:
                 c = concentrations(inp, idx, u, lng)

@@ -144,7 +144,12 @@ def kernel_inputs(prob: Problem, *, t_c=None, totals=None, inert_i=None, pressur
     iq = None
     if fixed_ph is None:     # a pH-stat's added acid or base carries charge the totals do not show
         iq = np.broadcast_to(np.asarray(prob.inert_q if inert_q is None else inert_q, dtype=float), (p,)).copy()
-    return K.Inputs(nu=st.nu, z2=st.z2, size=st.size, model=st.model, lnk=np.ascontiguousarray(lnk),
+    w_hess = st.cache.get("w_hess")
+    if w_hess is None:
+        nu = st.nu
+        w_hess = st.cache["w_hess"] = np.ascontiguousarray(
+            (nu[:, :, None] * nu[:, None, :]).reshape(nu.shape[0], -1))
+    return K.Inputs(nu=st.nu, z2=st.z2, size=st.size, model=st.model, lnk=np.ascontiguousarray(lnk), w_hess=w_hess,
                     totals=np.ascontiguousarray(tot), a=a, b=b, inert_i=np.array(ii), eq_rows=eq_rows,
                     eq_rhs=eq_rhs, sol_a=sol_a, sol_b=np.ascontiguousarray(sol_b), allowed=allowed,
                     fixed_ionic=fi, counter_row=counter, z_comp=st.z_comp if iq is not None else None,
@@ -591,11 +596,18 @@ def assemble(prob: Problem, state: _State) -> Equilibrium:
     totals = prob.totals.tolist()
     ph = -float(u[0]) / LN10
     rows, ion_rows, sys_tpl = _templates(st)
+    # a fixed gas exchanges material: then a system's total is what is there at equilibrium
+    denominator = list(totals)
+    if st.fixed:
+        amounts_arr = state.amounts if state.amounts.size else np.zeros(len(st.solids))
+        there = (c_arr @ st.nu + amounts_arr @ st.sol_a).tolist() if st.solids else (c_arr @ st.nu).tolist()
+        for col in np.nonzero(st.supplied)[0]:
+            denominator[col] = there[col] if there[col] > 0 else totals[col]
     species: list[Species] = []
     for r, name, sys_name, protons, z, holds, ions, col in rows:
         frac = None
         if col >= 0:
-            tot = totals[col]
+            tot = denominator[col]
             frac = min(c_raw[r] / tot, 1.0) if tot > 0 else 0.0
         species.append(Species(name, sys_name, protons, z, c[r], gamma[r], frac, holds, ions))
     mdl = st.model
