@@ -902,10 +902,13 @@ def run_explorer(path: str | None) -> int:
             mixture, source, name = chem.demo_mixture(), "built-in demo", ""
         else:
             mixture, source = chem.load_preset(path), Path(path).name
-            user_dir = storage.presets_dir().resolve()
+            try:                                        # a user preset keeps its name for saving
+                user_dir = storage.presets_dir().resolve()
+            except storage.StorageError:                # no usable data folder: the explorer says so
+                user_dir = None
             name = Path(path).stem if Path(path).resolve().parent == user_dir else ""
     except chem.ChemError as exc:
-        print(f"protomix: error: {exc}", file=sys.stderr)
+        print(f"protomix: error: {one_line(exc)}", file=sys.stderr)
         return 2
     app = ExplorerApp(mixture, source=source, preset_name=name, handle_signals=True)
     result = app.run()

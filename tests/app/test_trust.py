@@ -342,7 +342,10 @@ async def test_an_unusable_data_folder_gives_one_notice_and_the_explorer_works_o
             assert app.result.mixture == app.mixture
             await pilot.press("o")                      # the preset list still opens (shipped ones)
             assert isinstance(app.screen, PresetPicker)
-            await pilot.press("escape", "q", "d")
+            await pilot.press("escape", "s", "ctrl+u", *"mine", "enter")   # saving says why it cannot
+            await settle(pilot)
+            assert app.is_running and len(notes(app)) <= 2
+            await pilot.press("escape", "escape", "q", "d")
             await pilot.pause()
         assert app.return_code == 0 and app.return_value == 0
 

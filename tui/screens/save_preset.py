@@ -45,7 +45,7 @@ class SavePreset(Dialog["SaveRequest | None"]):
             yield Label("title (shown in the preset list)", classes="dialog-hint")
             yield Input(self.initial_title, placeholder="what this mixture is for", id="save-title")
             yield Label("", id="save-error", classes="dialog-error")
-            yield Label(f"folder: {storage.presets_dir()}", classes="dialog-hint")
+            yield Label(Content(printable(f"folder: {self._folder()}")), classes="dialog-hint")
             yield Label("enter save · tab next field · esc close", classes="dialog-hint")
 
     @on(Input.Changed, "#save-name")
@@ -78,6 +78,13 @@ class SavePreset(Dialog["SaveRequest | None"]):
         self.app.push_screen(Choice(f"A preset called '{name}' already exists. Replace it?",
                                     [("y", "replace it", True), ("n", "keep it", False)], on_escape=False),
                              replace)
+
+    @staticmethod
+    def _folder() -> str:
+        try:
+            return str(storage.presets_dir())
+        except storage.StorageError as exc:
+            return f"none ({exc})"
 
     def action_cancel(self) -> None:
         self.dismiss(None)
