@@ -8,10 +8,14 @@ existing file unless asked to.
 
 from __future__ import annotations
 
+import contextlib
 import json
 import math
 import os
-import tempfile
+import re
+import secrets
+import stat
+import time
 import tomllib
 from pathlib import Path
 from typing import Any
@@ -391,32 +395,105 @@ def parse_preset(data: dict, label: str, library: Library | None = None) -> Mixt
     return mixture
 
 
-def load_preset(path, library: Library | None = None) -> Mixture:
-    """Read and validate a preset file. Raises :class:`PresetError` with a one-line message."""
-    p = Path(path)
-    label = str(path)
+#: Largest preset (or autosave) file read, in bytes: a hand-written preset is a few kilobytes;
+#: anything far larger is not one (``/dev/zero``, a log file named .toml).
+MAX_PRESET_BYTES = 1_000_000
+#: Deepest nesting of tables and arrays accepted in a preset (the format itself needs 3).
+MAX_NESTING = 16
+#: A temporary file left by a save that was killed is removed after this many seconds.
+STALE_TEMP_S = 600.0
+
+_TEMP_NAME = re.compile(r"^\.(?P<target>.+)\.[0-9A-Za-z_]{8}\.tmp$")
+
+
+def read_preset_bytes(path, label: str | None = None) -> bytes:
+    """The bytes of the preset file at ``path``: a regular file of at most :data:`MAX_PRESET_BYTES`.
+
+    Devices, pipes, sockets and folders are refused without reading from them (opening
+    does not block on a pipe), so ``/dev/zero`` or a FIFO named ``x.toml`` gives a
+    one-line :class:`PresetError` instead of a hang or an endless read.
+    """
+    label = str(path) if label is None else label
+    flags = os.O_RDONLY | getattr(os, "O_NONBLOCK", 0) | getattr(os, "O_NOCTTY", 0) | getattr(os, "O_CLOEXEC", 0)
     try:
-        raw = p.read_bytes()
+        fd = os.open(path, flags)
     except FileNotFoundError:
         raise PresetError(f"{label}: no such file") from None
-    except IsADirectoryError:
-        raise PresetError(f"{label}: is a folder, not a preset file") from None
+    except NotADirectoryError:
+        raise PresetError(f"{label}: no such file (part of the path is not a folder)") from None
     except OSError as exc:
-        raise PresetError(f"{label}: cannot read ({exc.strerror})") from None
-    return loads_preset(raw, label, library)
+        raise PresetError(f"{label}: cannot read ({exc.strerror or exc})") from None
+    try:
+        info = os.fstat(fd)
+        if stat.S_ISDIR(info.st_mode):
+            raise PresetError(f"{label}: is a folder, not a preset file")
+        if not stat.S_ISREG(info.st_mode):
+            raise PresetError(f"{label}: is not a regular file (a device, pipe or socket); not read")
+        if info.st_size > MAX_PRESET_BYTES:
+            raise PresetError(f"{label}: is {info.st_size / 1e6:.3g} MB; a preset is at most "
+                              f"{MAX_PRESET_BYTES / 1e6:g} MB")
+        chunks, size = [], 0
+        while size <= MAX_PRESET_BYTES:
+            chunk = os.read(fd, min(1 << 16, MAX_PRESET_BYTES + 1 - size))
+            if not chunk:
+                break
+            chunks.append(chunk)
+            size += len(chunk)
+        if size > MAX_PRESET_BYTES:                     # it grew while being read
+            raise PresetError(f"{label}: is larger than {MAX_PRESET_BYTES / 1e6:g} MB; not a preset")
+        return b"".join(chunks)
+    except OSError as exc:
+        raise PresetError(f"{label}: cannot read ({exc.strerror or exc})") from None
+    finally:
+        os.close(fd)
+
+
+def load_preset(path, library: Library | None = None) -> Mixture:
+    """Read and validate a preset file. Raises :class:`PresetError` with a one-line message."""
+    label = str(path)
+    return loads_preset(read_preset_bytes(path, label), label, library)
+
+
+def _check_shape(data: dict, label: str) -> None:
+    """Refuse what the TOML reader accepts but no preset holds: deep nesting, integers no float can hold.
+
+    Walks the parsed document without recursion, so it cannot itself run out of stack.
+    """
+    stack: list[tuple[Any, str, int]] = [(data, "", 0)]
+    while stack:
+        value, where, depth = stack.pop()
+        if depth > MAX_NESTING:
+            raise PresetError(f"{label}: {where or 'document'}: nested more than {MAX_NESTING} levels deep")
+        if isinstance(value, dict):
+            stack.extend((v, f"{where}.{k}" if where else str(k), depth + 1) for k, v in value.items())
+        elif isinstance(value, list):
+            stack.extend((v, f"{where}[{i + 1}]", depth + 1) for i, v in enumerate(value))
+        elif isinstance(value, int) and not isinstance(value, bool) and value.bit_length() > 1000:
+            raise PresetError(f"{label}: {where}: the number is too large")
 
 
 def loads_preset(raw: bytes | str, label: str = "<preset>", library: Library | None = None) -> Mixture:
-    """Parse preset text (``label`` names it in errors)."""
+    """Parse preset text (``label`` names it in errors). A UTF-8 byte-order mark is accepted."""
+    if isinstance(raw, bytes) and len(raw) > MAX_PRESET_BYTES or isinstance(raw, str) and len(raw) > MAX_PRESET_BYTES:
+        raise PresetError(f"{label}: larger than {MAX_PRESET_BYTES / 1e6:g} MB; not a preset")
     try:
         text = raw.decode("utf-8") if isinstance(raw, bytes) else raw
     except UnicodeDecodeError:
         raise PresetError(f"{label}: not UTF-8 text") from None
+    text = text.removeprefix("\ufeff")                 # a byte-order mark, as some editors write
     try:
         data = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
         raise PresetError(f"{label}: malformed TOML: {exc}") from None
-    return parse_preset(data, label, library)
+    except RecursionError:
+        raise PresetError(f"{label}: malformed TOML: nested too deeply") from None
+    except ValueError:                                  # an integer with thousands of digits
+        raise PresetError(f"{label}: malformed TOML: a number has too many digits") from None
+    _check_shape(data, label)
+    try:
+        return parse_preset(data, label, library)
+    except (RecursionError, OverflowError):            # a safety net: user data, not a bug of ours
+        raise PresetError(f"{label}: a value is too large or nested too deeply") from None
 
 
 def _custom_table(reagent: Reagent) -> dict[str, Any]:
@@ -501,34 +578,117 @@ def dumps_preset(mixture: Mixture) -> str:
     return "".join(parts)
 
 
-def write_atomic(path, text: str, *, overwrite: bool = False) -> Path:
-    """Write ``text`` to ``path`` atomically; refuse to replace a file unless ``overwrite``."""
-    p = Path(path)
-    if p.exists() and not overwrite:
-        raise PresetError(f"{p}: already exists; not overwritten (choose another name or confirm overwrite)")
-    if not p.parent.exists():
-        raise PresetError(f"{p}: folder {p.parent} does not exist")
-    fd, tmp = tempfile.mkstemp(prefix=f".{p.name}.", suffix=".tmp", dir=p.parent)
+def clean_stale_temps(folder, target: str | None = None, *, older_than: float = STALE_TEMP_S) -> int:
+    """Remove temporary files (``.NAME.toml.XXXXXXXX.tmp``) that a killed save left in ``folder``.
+
+    Only files older than ``older_than`` seconds are removed (a save in progress in another
+    process is never touched), only regular files, and with ``target`` only those of that
+    file name. Returns how many were removed; problems are ignored (it is tidying up).
+    """
+    removed = 0
+    now = time.time()
     try:
-        with os.fdopen(fd, "w", encoding="utf-8") as fh:
-            fh.write(text)
-            fh.flush()
-            os.fsync(fh.fileno())
+        names = os.listdir(folder)
+    except OSError:
+        return 0
+    for name in names:
+        found = _TEMP_NAME.match(name)
+        if not found or not found["target"].endswith(".toml") or target is not None and found["target"] != target:
+            continue
+        path = os.path.join(folder, name)
+        try:
+            info = os.lstat(path)
+            if stat.S_ISREG(info.st_mode) and now - info.st_mtime > older_than:
+                os.unlink(path)
+                removed += 1
+        except OSError:
+            pass
+    return removed
+
+
+def _target(path, overwrite: bool) -> os.stat_result | None:
+    """What is at ``path`` now (None: nothing), if a save may go there; raises :class:`PresetError`."""
+    label = str(path)
+    if not label.strip():
+        raise PresetError("no file name given")
+    try:
+        info: os.stat_result | None = os.lstat(path)
+    except (FileNotFoundError, NotADirectoryError):
+        info = None
+    except OSError as exc:
+        raise PresetError(f"{label}: cannot write ({exc.strerror or exc})") from None
+    if info is not None:
+        if stat.S_ISLNK(info.st_mode):
+            raise PresetError(f"{label}: is a symbolic link; not replaced (name the file itself)")
+        if stat.S_ISDIR(info.st_mode):
+            raise PresetError(f"{label}: is a folder; not replaced")
+        if not stat.S_ISREG(info.st_mode):
+            raise PresetError(f"{label}: is not a regular file (a device, pipe or socket); not replaced")
         if not overwrite:
+            raise PresetError(f"{label}: already exists; not overwritten (choose another name or confirm overwrite)")
+    if not Path(path).parent.is_dir():
+        raise PresetError(f"{label}: folder {Path(path).parent} does not exist")
+    return info
+
+
+def check_save_target(path, *, overwrite: bool = False) -> None:
+    """Raise :class:`PresetError` now if :func:`write_atomic` could not write ``path``.
+
+    For a command that should refuse before doing its work: the same checks as the write,
+    and a trial file created and removed in the folder (the folder may refuse writing).
+    """
+    _target(path, overwrite)
+    p = Path(path)
+    trial = p.parent / f".{p.name}.{secrets.token_hex(4)}.tmp"
+    try:
+        os.close(os.open(trial, os.O_WRONLY | os.O_CREAT | os.O_EXCL | getattr(os, "O_NOFOLLOW", 0), 0o600))
+        os.unlink(trial)
+    except OSError as exc:
+        raise PresetError(f"{path}: cannot write ({exc.strerror or exc})") from None
+
+
+def write_atomic(path, text: str, *, overwrite: bool = False) -> Path:
+    """Write ``text`` to ``path`` atomically; refuse to replace a file unless ``overwrite``.
+
+    Only a regular file is ever written or replaced: a symbolic link, a device, a pipe or
+    a folder at ``path`` is refused even with ``overwrite`` (the path is never followed into
+    something else). The new file follows the user's umask like any file the user creates;
+    a replaced file keeps its permissions. Problems raise :class:`PresetError` (one line).
+    """
+    label = str(path)
+    info = _target(path, overwrite)
+    p = Path(path)
+    try:
+        data = text.encode("utf-8")
+    except UnicodeEncodeError:
+        raise PresetError(f"{label}: the text cannot be written as UTF-8") from None
+    clean_stale_temps(p.parent, p.name)
+    tmp = p.parent / f".{p.name}.{secrets.token_hex(4)}.tmp"
+    flags = os.O_WRONLY | os.O_CREAT | os.O_EXCL | getattr(os, "O_NOFOLLOW", 0) | getattr(os, "O_CLOEXEC", 0)
+    try:
+        fd = os.open(tmp, flags, 0o666)                 # the umask applies, as to any file the user makes
+        try:
+            if info is not None:
+                os.fchmod(fd, stat.S_IMODE(info.st_mode))
+            view = memoryview(data)
+            while view:
+                view = view[os.write(fd, view):]
+            os.fsync(fd)
+        finally:
+            os.close(fd)
+        if overwrite:
+            os.replace(tmp, p)
+        else:
             try:
                 os.link(tmp, p)          # fails if the name appeared meanwhile
             except FileExistsError:
-                raise PresetError(f"{p}: already exists; not overwritten") from None
+                raise PresetError(f"{label}: already exists; not overwritten") from None
             except OSError:
                 os.replace(tmp, p)       # file systems without hard links
-            else:
-                os.unlink(tmp)
-        else:
-            os.replace(tmp, p)
     except OSError as exc:
-        raise PresetError(f"{p}: cannot write ({exc.strerror})") from None
+        raise PresetError(f"{label}: cannot write ({exc.strerror or exc})") from None
     finally:
-        if os.path.exists(tmp):
+        with contextlib.suppress(OSError):
             os.unlink(tmp)
     return p
 

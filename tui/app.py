@@ -26,18 +26,20 @@ from textual import events, on, work
 from textual.app import App, ComposeResult, SystemCommand
 from textual.binding import Binding
 from textual.containers import Horizontal
+from textual.notifications import SeverityLevel
 from textual.reactive import var
 from textual.screen import Screen
 from textual.theme import Theme
 from textual.timer import Timer
 from textual.widget import MountError
-from textual.widgets import Footer
-from textual.worker import Worker, WorkerState, get_current_worker
+from textual.widgets import Footer, Static
+from textual.worker import Worker, WorkerCancelled, WorkerFailed, WorkerState, get_current_worker
 
 import chem
 from chem.activity import MODELS
 from tui import storage
-from tui.messages import Plotted, Solved
+from tui.messages import AutosaveWritten, Plotted, Solved
+from tui.text import one_line
 from tui.widgets.flask_list import FlaskList
 from tui.widgets.notice_bar import NoticeBar
 from tui.widgets.plot_area import PlotArea, prepare
@@ -67,6 +69,8 @@ HISTORY_LIMIT = 500
 AUTOSAVE_DELAY_S = 0.3
 #: A plot that took longer than this (s) to draw no longer holds back the numbers of the next edit.
 SLOW_PLOT_S = 0.025
+#: Smallest terminal the four panels fit in (columns, rows); below it a notice asks for a larger window.
+MIN_SIZE = (60, 16)
 
 NIGHT = Theme(
     name="protomix-night", dark=True,
@@ -181,9 +185,13 @@ class ExplorerApp(App[int]):
         self._redo: list[tuple[chem.Mixture, str]] = []
         self._generation = 0
         self._plot_seconds = 0.0                            # how long the last plot took to draw
+        self._autosave: storage.Autosave | None = None      # this session's own autosave (None: off)
         self._autosave_on = False
         self._autosave_timer: Timer | None = None           # a write is due when it fires
-        self._written: chem.Mixture | None = None           # what the autosave file holds
+        self._autosave_sequence = 0                         # orders the writes (newest edit wins)
+        self._autosave_failing: str | None = None           # the last write's problem, said once
+        self._orphans: list[storage.Orphan] = []            # autosaves of ended sessions, still to offer
+        self._offering: storage.Orphan | None = None        # the one being asked about
         self._enabled: tuple[bool, ...] = ()
         self._utf8 = locale_is_utf8()
         self._titration: TitrationSettings | None = None   # None: default_titration(result)
@@ -199,6 +207,7 @@ class ExplorerApp(App[int]):
             yield SpeciesTable(id="species").data_bind(ExplorerApp.result, ExplorerApp.pinned)
             yield PlotArea(id="chart")
         yield NoticeBar(id="notices").data_bind(ExplorerApp.result)
+        yield Static("", id="too-small")
 
     def on_mount(self) -> None:
         self.query_one("#flask").border_title = "Flask"
@@ -213,7 +222,7 @@ class ExplorerApp(App[int]):
         self.query_one(FlaskList).focus()
         if self._handle_signals:
             self._catch_signals()
-        self._offer_restore()
+        self._start_storage()
         # The key bar takes ~70 ms to build: add it after the first frame, so the pH shows sooner.
         self.call_after_refresh(self._finish_start)
 
@@ -229,7 +238,12 @@ class ExplorerApp(App[int]):
         self.call_after_refresh(_collect_from_now_on)
 
     def on_unmount(self) -> None:
-        self.flush_autosave()                           # ended some other way than quitting: keep the edit
+        # Ended some other way than quitting (a crash, a signal): keep the last edit, and leave the
+        # autosave for the next session to offer.
+        self.flush_autosave()
+        if self._autosave is not None:
+            self._autosave.release()
+        self._release_orphans()
 
     def _catch_signals(self) -> None:
         loop = asyncio.get_running_loop()
@@ -252,8 +266,18 @@ class ExplorerApp(App[int]):
 
     def on_resize(self, event: events.Resize) -> None:
         main = self.screen_stack[0]
-        main.set_class(event.size.width >= 110, "-wide")
-        main.set_class(event.size.height >= 34, "-tall")
+        width, height = event.size
+        main.set_class(width >= 110, "-wide")
+        main.set_class(height >= 34, "-tall")
+        small = width < MIN_SIZE[0] or height < MIN_SIZE[1]
+        if small:
+            self.query_one("#too-small", Static).update(
+                f"The terminal is {width}×{height}: too small.\nEnlarge the window to at least "
+                f"{MIN_SIZE[0]}×{MIN_SIZE[1]}.\nKeys still work: s saves, q quits.")
+        was_small = main.has_class("-too-small")
+        main.set_class(small, "-too-small")
+        if was_small and not small and self.screen is main:
+            self.query_one(FlaskList).focus()
 
     # -- state -------------------------------------------------------------------------------
     @property
@@ -425,59 +449,162 @@ class ExplorerApp(App[int]):
 
     def _autosave_now(self) -> None:
         self._autosave_timer = None
-        self._autosave(self.mixture)
+        if self._autosave is not None and self._autosave_on:
+            self._autosave_sequence += 1
+            self._autosave_write(self._autosave, self.mixture, self._autosave_sequence)
 
-    def flush_autosave(self) -> None:
+    def flush_autosave(self) -> bool:
         """Write the autosave now, on the calling thread, unless it already holds the mixture.
 
         For when the session is about to end: a delayed write still pending, or one
-        still running in its worker (the process may not live to finish it).
+        still running in its worker (the process may not live to finish it). Writes are
+        ordered: a worker's older write that finishes later is dropped. Returns True when
+        the autosave holds the current mixture.
         """
         if self._autosave_timer is not None:
             self._autosave_timer.stop()
             self._autosave_timer = None
-        if self._autosave_on and self.mixture is not None and self.mixture != self._written:
-            storage.write_autosave(self.mixture)
-            self._written = self.mixture
-
-    def _start_autosave(self) -> None:
-        """From now on every edit is autosaved (the file holds the current mixture, or nothing to restore)."""
-        self._autosave_on = True
-        self._written = self.mixture
+        autosave = self._autosave
+        if autosave is None or not self._autosave_on or self.mixture is None:
+            return False
+        self._autosave_sequence += 1
+        try:
+            autosave.write(self.mixture, self._autosave_sequence)
+        except storage.StorageError as exc:
+            self._autosave_problem(str(exc))
+            return False
+        self._autosave_problem(None)
+        return True
 
     @work(thread=True, exclusive=True, group="autosave", exit_on_error=False, description="autosave")
-    def _autosave(self, mixture: chem.Mixture) -> None:
-        storage.write_autosave(mixture)
-        self._written = mixture
-
-    def _offer_restore(self) -> None:
+    def _autosave_write(self, autosave: storage.Autosave, mixture: chem.Mixture, sequence: int) -> None:
         try:
-            saved = storage.read_autosave()
-        except chem.ChemError as exc:
-            aside = storage.set_aside_autosave()
-            self.notify(f"The autosaved session cannot be read ({exc}); it was moved to {aside}.",
-                        severity="warning", timeout=10)
-            saved = None
-        if saved is None or saved == self.mixture:
-            self._start_autosave()
+            autosave.write(mixture, sequence)
+        except storage.StorageError as exc:
+            problem: str | None = str(exc)
+        else:
+            problem = None
+        if problem != self._autosave_failing:          # news: said once (posting never blocks this thread)
+            self.post_message(AutosaveWritten(problem))
+
+    @on(AutosaveWritten)
+    def _autosave_written(self, message: AutosaveWritten) -> None:
+        self._autosave_problem(message.problem)
+
+    def _autosave_problem(self, problem: str | None) -> None:
+        """Say once that autosaving failed (``problem``), and once that it works again (None)."""
+        if problem == self._autosave_failing or (problem is not None and self._autosave_failing is not None):
+            return
+        self._autosave_failing = problem
+        if problem is None:
+            self.notify("Autosave works again.", timeout=4)
+        else:
+            self.notify(f"Autosave failed: {problem}. Until it works again, an edit is lost if the session "
+                        "ends without quitting; save with s.", title="Autosave", severity="error", timeout=15)
+
+    def _start_storage(self) -> None:
+        """Claim this session's autosave, tidy up, and offer the autosaves of sessions that ended without quitting.
+
+        Every problem with the data folder or its files ends in one notice; the explorer
+        works on without autosave when it must, and says so.
+        """
+        problems: list[str] = []
+        try:
+            self._autosave = storage.Autosave.begin()
+            self._autosave.holds = self._start          # nothing to keep until the first edit
+        except storage.StorageError as exc:
+            problems.append(f"Autosave is off: {exc}. Save your work with s.")
+        self._autosave_on = self._autosave is not None
+        storage.tidy_up()
+        try:
+            orphans = storage.orphaned_autosaves(self._autosave.path if self._autosave else None)
+        except storage.StorageError as exc:
+            orphans = []
+            if not problems:
+                problems.append(f"Autosaved sessions cannot be looked for: {exc}.")
+        for orphan in orphans:
+            if orphan.mixture is None:
+                try:
+                    aside = orphan.set_aside()
+                except storage.StorageError as exc:
+                    problems.append(f"An autosaved session cannot be read ({orphan.problem}); {exc}, "
+                                    "so it is left where it is.")
+                else:
+                    problems.append(f"An autosaved session cannot be read ({orphan.problem}); "
+                                    f"it was moved to {aside}.")
+            elif orphan.mixture == self._start:          # nothing that the opened file does not hold
+                try:
+                    orphan.discard()
+                except storage.StorageError:
+                    orphan.keep()
+            else:
+                self._orphans.append(orphan)
+        if problems:
+            self.notify("\n".join(problems), title="Files", severity="warning", timeout=20)
+        self._offer_next_orphan()
+
+    def _offer_next_orphan(self) -> None:
+        """Ask about the next autosave of a session that ended without quitting (newest first)."""
+        if not self._orphans:
             return
         from tui.screens.choice import Choice
 
+        orphan = self._orphans.pop(0)
+        self._offering = orphan
+        saved = orphan.mixture
+        assert saved is not None
         n = len(saved.ingredients)
         what = f"'{saved.title}'" if saved.title else "an untitled mixture"
-        question = (f"The last session ended without quitting: {what} with {n} "
-                    f"ingredient{'s' * (n != 1)} at {saved.temperature_c:g} °C was autosaved. Restore it?")
+        stamp = time.localtime(orphan.saved_at)
+        when = time.strftime("%H:%M" if stamp[:3] == time.localtime()[:3] else "%Y-%m-%d %H:%M", stamp)
+        more = f" ({len(self._orphans)} more after this one.)" if self._orphans else ""
+        question = (f"A session ended without quitting; its flask was autosaved at {when}: {what} with {n} "
+                    f"ingredient{'s' * (n != 1)} at {saved.temperature_c:g} °C. Restore it?{more}")
 
-        def answer(restore: bool | None) -> None:
-            if restore:
-                self._source = "restored session"
-                self.commit(saved, "restore the autosaved session")
+        def answer(choice: str) -> None:
+            self._offering = None
+            if choice == "restore":
+                self._restore(orphan)
+                return
+            if choice == "discard":
+                try:
+                    orphan.discard()
+                except storage.StorageError as exc:
+                    orphan.keep()
+                    self.notify(str(exc), title="Not discarded", severity="error", timeout=8)
             else:
-                storage.clear_autosave()
-            self._start_autosave()
+                orphan.keep()                           # esc: kept, offered again at the next start
+            self._offer_next_orphan()
 
-        self.push_screen(Choice(question, [("y", "restore it", True), ("n", "discard it", False)],
-                                on_escape=False), answer)
+        self.push_screen(Choice(question, [("y", "restore it", "restore"), ("d", "discard it", "discard")],
+                                on_escape="keep", escape_label="keep it for later"), answer)
+
+    def _restore(self, orphan: storage.Orphan) -> None:
+        """Load an orphaned autosave into the flask; delete it only once this session's autosave holds it."""
+        assert orphan.mixture is not None
+        self._source = "restored session"
+        self.commit(orphan.mixture, "restore the autosaved session")
+        if self.flush_autosave():
+            try:
+                orphan.discard()
+            except storage.StorageError:
+                orphan.keep()
+        else:
+            orphan.keep()
+        later, self._orphans = self._orphans, []
+        for other in later:
+            other.keep()
+        if later:
+            n = len(later)
+            self.notify(f"{n} more autosaved session{'s are' if n > 1 else ' is'} kept; "
+                        "offered the next time protomix starts.", timeout=8)
+
+    def _release_orphans(self) -> None:
+        """Leave every autosave still being offered for a later session."""
+        pending = ([self._offering] if self._offering is not None else []) + self._orphans
+        self._offering, self._orphans = None, []
+        for orphan in pending:
+            orphan.keep()
 
     # -- actions -----------------------------------------------------------------------------
     def _update_keys(self) -> None:
@@ -502,6 +629,23 @@ class ExplorerApp(App[int]):
         if action in ("pin", "notices", "curve_setup"):
             return self.result is not None or None
         return True
+
+    def action_command_palette(self) -> None:
+        """Open the command palette (ctrl+p), guarded against the framework's races (see :mod:`tui.palette`)."""
+        from tui.palette import GuardedCommandPalette
+
+        if self.use_command_palette and not GuardedCommandPalette.is_open(self):
+            self.push_screen(GuardedCommandPalette(id="--command-palette"))
+
+    def notify(self, message: str, *, title: str = "", severity: SeverityLevel = "information",
+               timeout: float | None = None, markup: bool = True) -> None:
+        """Show a toast as plain text (every toast goes through here, from any screen or widget).
+
+        Messages quote names, titles and file names from files, so none is read as markup,
+        control characters are escaped and each line is kept readable (:mod:`tui.text`).
+        """
+        text = "\n".join(one_line(line) for line in str(message).split("\n"))
+        super().notify(text, title=one_line(title, 80), severity=severity, timeout=timeout, markup=False)
 
     def get_system_commands(self, screen: Screen) -> Iterable[SystemCommand]:
         yield from super().get_system_commands(screen)
@@ -733,13 +877,17 @@ class ExplorerApp(App[int]):
 
     async def _leave(self) -> None:
         self._autosave_on = False                       # a clean end: nothing to keep
-        for worker in self.workers:
-            if worker.group == "autosave":
-                await worker.wait()
         if self._autosave_timer is not None:
             self._autosave_timer.stop()
             self._autosave_timer = None
-        storage.clear_autosave()
+        for worker in self.workers:
+            if worker.group == "autosave":
+                with contextlib.suppress(WorkerCancelled, WorkerFailed):
+                    await worker.wait()
+        if self._autosave is not None:
+            self._autosave.remove()
+            self._autosave = None
+        self._release_orphans()
         self.exit(0)
 
 
@@ -747,17 +895,23 @@ def run_explorer(path: str | None) -> int:
     """Open the explorer on the preset at ``path`` (None: the built-in demo mixture).
 
     Returns the exit status: 0 after a normal quit, 2 when the preset cannot be read
-    (after printing a one-line error).
+    (after printing a one-line error), 143 after SIGTERM, and non-zero (1) after any crash.
     """
     try:
         if path is None:
             mixture, source, name = chem.demo_mixture(), "built-in demo", ""
         else:
             mixture, source = chem.load_preset(path), Path(path).name
-            user_dir = storage.presets_dir().resolve()
+            try:                                        # a user preset keeps its name for saving
+                user_dir = storage.presets_dir().resolve()
+            except storage.StorageError:                # no usable data folder: the explorer says so
+                user_dir = None
             name = Path(path).stem if Path(path).resolve().parent == user_dir else ""
     except chem.ChemError as exc:
-        print(f"protomix: error: {exc}", file=sys.stderr)
+        print(f"protomix: error: {one_line(exc)}", file=sys.stderr)
         return 2
     app = ExplorerApp(mixture, source=source, preset_name=name, handle_signals=True)
-    return app.run() or 0
+    result = app.run()
+    if app.return_code:                                 # it crashed (the traceback is shown): not a success
+        return app.return_code
+    return int(result or 0)

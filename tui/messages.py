@@ -34,3 +34,10 @@ class Solved(Message):
     """β at the solved pH, mol/(L·pH); None when the solve did not converge."""
     plot: Plotted | None = None
     """The plot for this result when it was drawn in time (else a :class:`Plotted` follows, if any)."""
+
+
+@dataclass
+class AutosaveWritten(Message):
+    """An autosave write from the worker ended: ``problem`` is None when it worked."""
+
+    problem: str | None = None

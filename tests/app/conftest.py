@@ -18,6 +18,27 @@ def data_dir(tmp_path, monkeypatch):
     return folder
 
 
+def _autosaved(folder) -> list[chem.Mixture]:
+    """The mixtures in the autosave files of ``folder``, newest first."""
+    files = sorted(folder.glob("session*.toml"), key=lambda p: p.stat().st_mtime_ns, reverse=True)
+    return [chem.load_preset(p) for p in files]
+
+
+@pytest.fixture
+def autosaved(data_dir):
+    """``autosaved()``: the mixtures in the autosave files of the test's data folder, newest first."""
+    return lambda: _autosaved(data_dir)
+
+
+@pytest.fixture
+def orphan(data_dir):
+    """``orphan(mixture, name="session-old.toml")``: the autosave of a session that ended without quitting."""
+    def make(mixture: chem.Mixture, name: str = "session-old.toml"):
+        data_dir.mkdir(parents=True, exist_ok=True)
+        return chem.save_preset(mixture, data_dir / name, overwrite=True)
+    return make
+
+
 @pytest.fixture(scope="session")
 def library() -> chem.Library:
     return chem.load_library()

@@ -111,17 +111,17 @@ async def test_a_bad_preset_name_is_refused_in_the_form(acetate_buffer, data_dir
         assert not (data_dir / "presets").exists() or not any((data_dir / "presets").iterdir())
 
 
-async def test_every_edit_is_autosaved_and_offered_back_after_a_dropped_session(acetate_buffer, settle):
+async def test_every_edit_is_autosaved_and_offered_back_after_a_dropped_session(acetate_buffer, settle, autosaved):
     app = ExplorerApp(acetate_buffer)
     async with app.run_test(size=(80, 24)) as pilot:
         await pilot.press("right")
         await pilot.pause(AUTOSAVE_DELAY_S + 0.1)        # written shortly after the last edit
         await settle(pilot)
         edited = app.mixture
-        assert storage.read_autosave() == edited
+        assert autosaved() == [edited]
         await pilot.press("right")                      # ended before that: written as the app goes
         edited = app.mixture
-    assert storage.read_autosave() == edited
+    assert autosaved() == [edited]
     # the session ended without quitting (as when a connection drops): the next start offers it back
     app = ExplorerApp(acetate_buffer)
     async with app.run_test(size=(80, 24)) as pilot:
@@ -130,34 +130,36 @@ async def test_every_edit_is_autosaved_and_offered_back_after_a_dropped_session(
         await settle(pilot)
         assert app.mixture == edited
         assert app.result.mixture == edited
+        assert autosaved() == [edited]                  # now this session's own autosave holds it
 
 
-async def test_a_hang_up_writes_the_pending_autosave_at_once(acetate_buffer, data_dir):
+async def test_a_hang_up_writes_the_pending_autosave_at_once(acetate_buffer, autosaved, monkeypatch):
     # What the SIGHUP/SIGTERM handler calls: the edit is on disk before the delayed write is due.
+    monkeypatch.setattr("tui.app.AUTOSAVE_DELAY_S", 60.0)      # not due during this test, however slow
     app = ExplorerApp(acetate_buffer)
     async with app.run_test(size=(80, 24)) as pilot:
         await pilot.press("right")
-        assert storage.read_autosave() is None          # not yet due
+        assert autosaved() == []                        # not yet due
         app.flush_autosave()
-        assert storage.read_autosave() == app.mixture
-        stamp = (data_dir / "session.toml").stat().st_mtime_ns
+        assert autosaved() == [app.mixture]
+        stamp = app._autosave.path.stat().st_mtime_ns
         app.flush_autosave()                            # already on disk: not written again
-        assert (data_dir / "session.toml").stat().st_mtime_ns == stamp
+        assert app._autosave.path.stat().st_mtime_ns == stamp
         await pilot.press("q", "d")                     # a clean quit leaves nothing behind
         await pilot.pause()
-    assert storage.read_autosave() is None
+    assert autosaved() == []
 
 
-async def test_declining_the_restore_discards_the_autosave(acetate_buffer):
-    storage.write_autosave(acetate_buffer.with_temperature(30.0))
+async def test_discarding_the_restore_deletes_the_autosave(acetate_buffer, orphan, autosaved):
+    orphan(acetate_buffer.with_temperature(30.0))
     app = ExplorerApp(acetate_buffer)
     async with app.run_test(size=(80, 24)) as pilot:
-        await pilot.press("n")
+        await pilot.press("d")
         assert app.mixture == acetate_buffer
-        assert storage.read_autosave() is None
+        assert autosaved() == []
 
 
-async def test_quit_with_unsaved_changes_asks_and_escape_stays(acetate_buffer):
+async def test_quit_with_unsaved_changes_asks_and_escape_stays(acetate_buffer, autosaved):
     app = ExplorerApp(acetate_buffer)
     async with app.run_test(size=(80, 24)) as pilot:
         await pilot.press("right", "q")
@@ -167,7 +169,7 @@ async def test_quit_with_unsaved_changes_asks_and_escape_stays(acetate_buffer):
         await pilot.press("q", "d")
         await pilot.pause()
     assert app.return_value == 0
-    assert storage.read_autosave() is None              # a clean quit leaves nothing to restore
+    assert autosaved() == []                            # a clean quit leaves nothing to restore
 
 
 @pytest.mark.parametrize("key", ["q", "ctrl+q"])
@@ -196,7 +198,9 @@ async def test_an_unreadable_autosave_is_set_aside_not_lost(acetate_buffer, data
         await pilot.pause()
         assert app.screen is app.screen_stack[0]
         assert app.mixture == acetate_buffer
-    assert (data_dir / "session-unreadable.toml").read_text(encoding="utf-8") == "this is not a preset"
+        notes = [n.message for n in app._notifications]
+        assert len(notes) == 1 and "cannot be read" in notes[0] and "session.toml.unreadable" in notes[0]
+    assert (data_dir / "session.toml.unreadable").read_text(encoding="utf-8") == "this is not a preset"
 
 
 async def test_ctrl_q_works_from_an_open_dialog(acetate_buffer):

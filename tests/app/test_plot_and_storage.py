@@ -145,13 +145,14 @@ def test_the_preset_list_marks_a_broken_user_file(data_dir, acetate_buffer):
         [True] * len(chem.shipped_presets())
 
 
-def test_autosave_round_trips_and_clears(acetate_buffer):
-    assert storage.read_autosave() is None
-    storage.write_autosave(acetate_buffer)
-    assert storage.read_autosave() == acetate_buffer
-    storage.clear_autosave()
-    storage.clear_autosave()                            # twice is harmless
-    assert storage.read_autosave() is None
+def test_an_autosave_round_trips_and_a_clean_end_removes_it(acetate_buffer, data_dir):
+    autosave = storage.Autosave.begin()
+    assert storage.orphaned_autosaves(autosave.path) == []
+    assert autosave.write(acetate_buffer, 1)
+    assert chem.load_preset(autosave.path) == acetate_buffer
+    autosave.remove()
+    autosave.remove()                                   # twice is harmless
+    assert list(data_dir.iterdir()) == []               # nothing left: not the file, not the lock
 
 
 @pytest.mark.parametrize("dark,color,utf8", [(True, True, True), (False, True, True), (True, False, True),

@@ -107,7 +107,7 @@ def test_end_to_end_through_the_console_entry():
                           "--csv"], capture_output=True, text=True)
     assert out.returncode == 0, out.stderr
     rows = list(csv.reader(io.StringIO(out.stdout)))
-    assert rows[0] == ["pH", "pH", "beta_M_per_pH", "added_base_M", "ionic_strength_M"]
+    assert rows[0] == ["pH", "beta_M_per_pH", "added_base_M", "ionic_strength_M"]
     assert len(rows) == 6
     assert out.stderr == ""              # no progress bar when stderr is not a terminal
 

@@ -121,7 +121,7 @@ def test_save_refuses_to_overwrite_without_force(capsys, tmp_path):
     (["--system", "tris", "--pH", "7", "--total", "fifty"], "not an amount"),
     (["--system", "tris", "--pH", "7", "--total=-5 mM"], "negative"),
     (["--system", "tris", "--pH", "7", "--volume", "1 gallon"], "unknown volume unit"),
-    (["--system", "tris", "--pH", "seven"], "invalid float"),
+    (["--system", "tris", "--pH", "seven"], "not a number"),
     (["--system", "tris", "--pH", "7", "--salt", "NaCl"], "name and an amount"),
     (["--system", "tris", "--pH", "7", "--titrant", "HCl"], "only with form 'titrant'"),
     (["--system", "tris", "--pH", "7", "--form", "stocks", "--stock-conc", "5 mM"], "more concentrated"),

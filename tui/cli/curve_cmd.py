@@ -69,6 +69,8 @@ _REQUIRED = {
     "sweep": (("vary", "--vary"), ("start", "--from"), ("stop", "--to")),
     "solubility": (("solid", "--solid"),),
 }
+#: Cap on a titration's points after refinement of its steep parts (at least the points asked for).
+_TITRATION_MAX_POINTS = 20_000
 _DEFAULT_POINTS = {"titration": 201, "capacity": 281, "dilution": 61, "sweep": 101, "distribution": 281,
                    "logc": 281, "solubility": 201, "saturation": 201}
 
@@ -159,6 +161,10 @@ def _check_options(args) -> None:
             _fail(f"{option} must be from {least} to 1000 (got {value})")
     if args.max_step is not None and not (math.isfinite(args.max_step) and args.max_step > 0):
         _fail(f"--max-step must be a positive number of pH units (got {args.max_step})")
+    if args.csv or args.json:
+        for option, value in (("--width", args.width), ("--height", args.height)):
+            if value is not None:
+                _fail(f"{option} sizes the text plot; it does not go with --{'csv' if args.csv else 'json'}")
 
 
 def _number(text: str | None, option: str, what: str, default: float | None = None) -> float:
@@ -166,16 +172,20 @@ def _number(text: str | None, option: str, what: str, default: float | None = No
         if default is None:
             _fail(f"{option} is needed")
         return default
-    cleaned = text.strip()
-    for suffix in ("°C", "C"):
-        if what == "temperature" and cleaned.endswith(suffix):
-            cleaned = cleaned[: -len(suffix)].strip()
+    if what == "temperature":                           # one reading and range for every command
+        from chem.units import parse_temperature
+
+        return parse_temperature(text, option)
     try:
-        value = float(cleaned)
+        value = float(text.strip())
     except ValueError:
         _fail(f"{option}: '{text}' is not a {what}")
     if not math.isfinite(value):
         _fail(f"{option}: '{text}' is not a finite number")
+    if what == "pH":                                    # one pH range for every command
+        from chem.limits import check_ph
+
+        return check_ph(value, option)
     return value
 
 
@@ -232,8 +242,9 @@ def _titration(args, mixture, progress) -> _Result:
         first = next((n.strip() for item in args.species for n in item.split(",") if n.strip()), None)
         if first is not None and first.lower() != "all":
             track = first
+    points = args.points or _DEFAULT_POINTS["titration"]
     curve = titration(mixture, titrant, conc, sample, parse_volume(args.stop), from_volume_L=start,
-                      points=args.points or _DEFAULT_POINTS["titration"],
+                      points=points, max_points=max(points, _TITRATION_MAX_POINTS),
                       max_step=0.05 if args.max_step is None else args.max_step, track=track, progress=progress)
     species, names = _curve_species(curve, args, default_all=False)
     series = {"pH": curve.pH, "dpH_dmL": curve.slope, "ionic_strength_M": curve.ionic_strength}
@@ -266,9 +277,11 @@ def _ph_grid(args):
     """The pH grid of --from/--to/--points for the pH-axis kinds (default 0..14)."""
     import numpy as np
 
+    from chem.limits import PH_MAX, PH_MIN
+
     held = args.kind in ("solubility", "saturation") or (args.kind == "distribution" and args.system)
-    lo = _number(args.start, "--from", "pH", 2.0 if held else 0.0)
-    hi = _number(args.stop, "--to", "pH", 12.0 if held else 14.0)
+    lo = _number(args.start, "--from", "pH", 2.0 if held else PH_MIN)
+    hi = _number(args.stop, "--to", "pH", 12.0 if held else PH_MAX)
     if not hi > lo:
         _fail(f"--from must be below --to (got {lo:g} and {hi:g})")
     return np.linspace(lo, hi, args.points or _DEFAULT_POINTS[args.kind])
@@ -375,7 +388,8 @@ def _diagram(args, mixture, progress) -> _Result:
         diagram = distribution(mixture, grid, ionic_strength=eq.ionic_strength)
         ylabel = "fraction"
     else:
-        diagram = log_concentrations(mixture, grid, ionic_strength=eq.ionic_strength)
+        # the true values (a plot clips them for drawing only)
+        diagram = log_concentrations(mixture, grid, ionic_strength=eq.ionic_strength, floor=-math.inf)
         ylabel = "log C (M)"
     names = _species_list(args, tuple(diagram.series)) if args.species else list(diagram.series)
     series = {"pH": diagram.ph, **{n: diagram.series[n] for n in names}}
@@ -440,10 +454,18 @@ def to_json(res: _Result) -> dict:
 
 
 def write_csv(res: _Result, stream) -> None:
-    """Header row (x label, then series names), then one row per point."""
+    """Header row (x label, then series names), then one row per point.
+
+    A series that only repeats the x column (pH against pH) is left out; names are made
+    safe to print (species names can come from a shared preset).
+    """
+    import numpy as np
+
+    from tui.text import printable
+
     writer = csv.writer(stream, lineterminator="\n")
-    names = list(res.series)
-    writer.writerow([res.x_label, *names])
+    names = [n for n in res.series if not (n == res.x_label and np.array_equal(res.series[n], res.x))]
+    writer.writerow([printable(res.x_label), *(printable(n) for n in names)])
     columns = [res.x, *(res.series[n] for n in names)]
     for row in zip(*columns):
         writer.writerow(["" if not math.isfinite(v) else repr(float(v)) for v in row])
@@ -458,6 +480,9 @@ def render_plot(res: _Result, width: int, height: int, *, color: bool, utf8: boo
     import numpy as np
     import plotext as plt
 
+    from chem.limits import LOG_C_FLOOR
+    from tui.text import printable
+
     plt.clear_figure()
     two = bool(res.extra)
     plt.plotsize(width, height * 2 if two else height)
@@ -470,9 +495,11 @@ def render_plot(res: _Result, width: int, height: int, *, color: bool, utf8: boo
     def draw(names, ylabel):
         for name in names:
             y = res.series[name]
+            if res.kind == "logc":                          # the data keep their true values
+                y = np.maximum(y, LOG_C_FLOOR)
             ok = np.isfinite(y)
             plt.plot([xv for xv, good in zip(x, ok) if good], [float(v) for v in y[ok]],
-                     label=name if len(names) > 1 else None, marker=marker)
+                     label=printable(name) if len(names) > 1 else None, marker=marker)
         for m in res.marks:
             plt.vline(float(m), "gray" if color else None)
         if res.log_x:
@@ -527,11 +554,13 @@ def run(args) -> int:
         res = _COMPUTE[args.kind](args, mixture, bar)
     finally:
         bar.close()
+    from tui.text import printable, safe_json
+
     if res.not_converged:
         print(f"protomix: warning: {res.not_converged} point(s) did not converge; their numbers are unreliable",
               file=sys.stderr)
     if args.json:
-        sys.stdout.write(json.dumps(to_json(res), ensure_ascii=False) + "\n")
+        sys.stdout.write(safe_json(json.dumps(to_json(res), ensure_ascii=False)) + "\n")
     elif args.csv:
         write_csv(res, sys.stdout)
     else:
@@ -543,9 +572,9 @@ def run(args) -> int:
         color = tty and "NO_COLOR" not in os.environ
         encoding = (getattr(out, "encoding", None) or "").lower().replace("-", "")
         utf8 = encoding == "utf8"
-        title = mixture.title or args.file
+        title = printable(mixture.title or args.file)
         print(f"{title}  ({mixture.temperature_c:g} °C, activity: {mixture.activity})")
         print(render_plot(res, width, height, color=color, utf8=utf8))
         for note in res.notes:
-            print(note)
-    return 0
+            print(printable(note))
+    return 3 if res.not_converged else 0

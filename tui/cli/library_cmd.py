@@ -2,7 +2,11 @@
 
 from __future__ import annotations
 
+import sys
+
 HELP = "list acid–base systems and reagents (matching QUERY), with pKa and sources"
+
+EPILOG = "Nothing matching QUERY: one line on stderr and exit status 3."
 
 
 def add_arguments(parser) -> None:
@@ -29,23 +33,27 @@ def _reagent_line(r) -> str:
     return f"reagent  {r.name:<36} {r.formula:<16} {mm:<14} {what}{alias}"
 
 
+def _count(n: int, noun: str) -> str:
+    return f"{n} {noun}{'s' * (n != 1)}"
+
+
 def run(args) -> int:
     from chem import load_library
     from chem.model import AcidBaseSystem
+    from tui.text import one_line, printable
 
     lib = load_library()
     hits = lib.search(args.query)
     if not hits:
-        print(f"protomix: nothing in the library matches '{args.query}'")
-        return 0
+        print(f"protomix: nothing in the library matches '{one_line(args.query, 80)}'", file=sys.stderr)
+        return 3
+    lines = []
     for item in hits:
-        if isinstance(item, AcidBaseSystem):
-            print(_system_line(item))
-        else:
-            print(_reagent_line(item))
+        lines.append(_system_line(item) if isinstance(item, AcidBaseSystem) else _reagent_line(item))
         if args.sources or args.query:
-            print(f"         source: {item.source}")
-    print(f"\n{sum(isinstance(h, AcidBaseSystem) for h in hits)} systems, "
-          f"{sum(not isinstance(h, AcidBaseSystem) for h in hits)} reagents"
-          + ("" if args.query or args.sources else "  (add --sources for where each number comes from)"))
+            lines.append(f"         source: {item.source}")
+    systems = sum(isinstance(h, AcidBaseSystem) for h in hits)
+    lines.append(f"\n{_count(systems, 'system')}, {_count(len(hits) - systems, 'reagent')}"
+                 + ("" if args.query or args.sources else "  (add --sources for where each number comes from)"))
+    print(printable("\n".join(lines), newlines=True))
     return 0

@@ -8,8 +8,8 @@ from __future__ import annotations
 
 import json
 import math
+import os
 import sys
-from pathlib import Path
 
 from tui.cli.solve_cmd import notice_lines
 
@@ -29,11 +29,68 @@ EPILOG = ("Amounts are for the whole final volume: dissolve, add the listed volu
           "Model estimate: check the pH with a calibrated meter at the working temperature.")
 
 
+def _ph(text: str) -> float:
+    """argparse type of --pH: a number on the pH scale every command shares (chem.limits)."""
+    import argparse
+
+    from chem.errors import ChemError
+    from chem.limits import check_ph
+
+    try:
+        return check_ph(float(text), "pH")
+    except ValueError as exc:
+        raise argparse.ArgumentTypeError(str(exc) if isinstance(exc, ChemError) else f"'{text}' is not a number")
+
+
+def _celsius(text: str) -> float:
+    """argparse type of --temp and --check-temp: 37, "37 °C", "37C" or "37 ℃", within the model's range."""
+    import argparse
+
+    from chem.errors import ChemError
+    from chem.units import parse_temperature
+
+    try:
+        return parse_temperature(text)
+    except ChemError as exc:
+        raise argparse.ArgumentTypeError(str(exc))
+
+
+#: Options that shape a designed recipe, with their defaults: meaningless with --suggest.
+_DESIGN_ONLY = {"system": None, "total": "50 mM", "volume": "1 L", "form": "reagents", "salt": [],
+                "ionic_strength": None, "ionic_salt": None, "acid_form": None, "base_form": None, "cation": None,
+                "titrant": None, "titrant_conc": None, "stock_conc": None, "check_temp": None, "free": None,
+                "metal_salt": None, "save": None, "force": False}
+
+
+def _option(dest: str) -> str:
+    return "--" + dest.replace("_", "-")
+
+
+def check_options(args) -> str | None:
+    """The first option given that conflicts with another or is ignored, as a one-line message; or None."""
+    if args.suggest:
+        for dest, default in _DESIGN_ONLY.items():
+            if getattr(args, dest, default) != default:
+                return (f"{_option(dest)} does not go with --suggest, which only ranks buffer systems "
+                        "(leave --suggest out to design a recipe)")
+    elif args.limit is not None:
+        return "--limit goes with --suggest"
+    if args.limit is not None and args.limit < 1:
+        return f"--limit must be 1 or more (got {args.limit})"
+    if args.save is not None and not args.save.strip():
+        return "--save needs a file name"
+    if args.force and args.save is None:
+        return "--force goes with --save (it lets --save replace an existing file)"
+    return None
+
+
 def add_arguments(parser) -> None:
     parser.add_argument("--system", metavar="NAME",
                         help="buffer system (e.g. phosphate, tris, hepes); omitted: the best-ranked one")
-    parser.add_argument("--pH", type=float, required=True, metavar="PH", help="target pH at the working temperature")
-    parser.add_argument("--temp", type=float, default=25.0, metavar="°C", help="working temperature (default 25)")
+    parser.add_argument("--pH", type=_ph, required=True, metavar="PH",
+                        help="target pH at the working temperature (0 to 14)")
+    parser.add_argument("--temp", type=_celsius, default=None, metavar="°C",
+                        help="working temperature, e.g. 37 or \"37 °C\" (default 25)")
     parser.add_argument("--total", default="50 mM", metavar="CONC",
                         help='total buffer concentration, all forms (default "50 mM")')
     parser.add_argument("--volume", default="1 L", metavar="VOL", help='final volume (default "1 L")')
@@ -50,7 +107,7 @@ def add_arguments(parser) -> None:
     parser.add_argument("--titrant", metavar="NAME", help="strong acid or base for --form titrant")
     parser.add_argument("--titrant-conc", metavar="CONC", help='titrant stock concentration (default "1 M")')
     parser.add_argument("--stock-conc", metavar="CONC", help='stock concentration for --form stocks (default "0.5 M")')
-    parser.add_argument("--check-temp", type=float, action="append", metavar="°C",
+    parser.add_argument("--check-temp", type=_celsius, action="append", metavar="°C",
                         help="also report the pH of the same solution at this temperature (repeatable)")
     parser.add_argument("--activity", choices=("davies", "extended-dh", "ideal"), default="davies",
                         help="activity model (default davies)")
@@ -139,17 +196,24 @@ def render_suggestions(suggestions, target: float, t_c: float) -> str:
 
 
 def run(args) -> int:
+    from chem.limits import STANDARD_TEMPERATURE_C
     from chem.recipe import design_buffer, suggest_systems
+    from tui.text import printable, safe_json
 
+    problem = check_options(args)
+    if problem:
+        print(f"protomix: error: {problem}", file=sys.stderr)
+        return 2
+    if args.temp is None:
+        args.temp = STANDARD_TEMPERATURE_C
     if args.suggest:
         sugg = suggest_systems(args.pH, args.temp, activity=args.activity, limit=args.limit)
         if args.json:
             doc = {"format": 1, "target_pH": args.pH, "temperature_c": args.temp,
                    "suggestions": [s.to_dict() for s in sugg]}
-            json.dump(doc, sys.stdout, indent=2, ensure_ascii=False)
-            sys.stdout.write("\n")
+            sys.stdout.write(safe_json(json.dumps(doc, indent=2, ensure_ascii=False)) + "\n")
         else:
-            print(render_suggestions(sugg, args.pH, args.temp))
+            print(printable(render_suggestions(sugg, args.pH, args.temp), newlines=True))
         return 0
 
     if args.metal_salt is not None and args.free is None:
@@ -159,10 +223,14 @@ def run(args) -> int:
         print("protomix: error: --free needs --system: the chelator (e.g. egta, edta, nta, citrate, atp)",
               file=sys.stderr)
         return 2
-    if args.save and not args.force and Path(args.save).exists():
-        print(f"protomix: error: {args.save} already exists; not overwritten (add --force to replace it)",
-              file=sys.stderr)
-        return 2
+    if args.save is not None:
+        from chem.presets import check_save_target
+
+        if not args.force and os.path.lexists(args.save):
+            print(f"protomix: error: {printable(args.save)} already exists; not overwritten "
+                  "(add --force to replace it)", file=sys.stderr)
+            return 2
+        check_save_target(args.save, overwrite=args.force)       # before the work: fail with one line
     if args.free is not None:
         from chem.recipe import design_metal_buffer
 
@@ -180,14 +248,16 @@ def run(args) -> int:
             titrant_conc=args.titrant_conc, stock_conc=args.stock_conc, check_temperatures=args.check_temp,
             activity=args.activity)
     if args.json:
-        json.dump(recipe.to_dict(), sys.stdout, indent=2, ensure_ascii=False)
-        sys.stdout.write("\n")
+        sys.stdout.write(safe_json(json.dumps(recipe.to_dict(), indent=2, ensure_ascii=False)) + "\n")
     else:
-        print(render_recipe(recipe))
-    if args.save:
+        print(printable(render_recipe(recipe), newlines=True))
+    if args.save is not None:
         from chem import save_preset
 
         path = save_preset(recipe.mixture, args.save, overwrite=args.force)
-        print(f"saved preset {path} (read it back with: protomix solve {path})",
+        print(printable(f"saved preset {path} (read it back with: protomix solve {path})"),
               file=sys.stderr if args.json else sys.stdout)
+    if not recipe.equilibrium.converged:
+        print("protomix: warning: the recipe's solve did not converge; its numbers are unreliable", file=sys.stderr)
+        return 3
     return 0

@@ -8,6 +8,8 @@ import sys
 
 HELP = "print the equilibrium of a preset as a table (or --json)"
 
+EPILOG = "A solve that does not converge still prints its numbers, marked unreliable, and exits with status 3."
+
 
 def notice_lines(result) -> list[str]:
     """One line per warning, then per caution, of a solved result or a recipe."""
@@ -118,11 +120,14 @@ def _water_lines(eq) -> list[str]:
 
 def run(args) -> int:
     from chem import load_preset, solve
+    from tui.text import printable, safe_json
 
     eq = solve(load_preset(args.file))
     if args.json:
-        json.dump(eq.to_dict(), sys.stdout, indent=2, ensure_ascii=False)
-        sys.stdout.write("\n")
+        sys.stdout.write(safe_json(json.dumps(eq.to_dict(), indent=2, ensure_ascii=False)) + "\n")
     else:
-        print(render_table(eq))
+        print(printable(render_table(eq), newlines=True))     # names and titles come from a shared file
+    if not eq.converged:
+        print("protomix: warning: the solve did not converge; the numbers above are unreliable", file=sys.stderr)
+        return 3
     return 0

@@ -8,28 +8,36 @@ from textual import events
 from textual.app import ComposeResult
 from textual.containers import Vertical
 from textual.content import Content
-from textual.screen import ModalScreen
 from textual.widgets import Label
+
+from tui.screens.base import Dialog
+from tui.text import printable
 
 T = TypeVar("T")
 
 
-class Choice(ModalScreen[T], Generic[T]):
-    """Asks ``question``; each answer is a (key, label, value) triple. Escape dismisses with ``on_escape``."""
+class Choice(Dialog[T], Generic[T]):
+    """Asks ``question``; each answer is a (key, label, value) triple. Escape dismisses with ``on_escape``.
 
-    def __init__(self, question: str, answers: list[tuple[str, str, T]], *, on_escape: T) -> None:
+    The question may quote text from a file (a title): it is shown as plain text, with
+    control characters escaped and no markup read from it.
+    """
+
+    def __init__(self, question: str, answers: list[tuple[str, str, T]], *, on_escape: T,
+                 escape_label: str = "back") -> None:
         super().__init__()
         self.question = question
         self.answers = answers
         self.on_escape = on_escape
+        self.escape_label = escape_label
 
     def compose(self) -> ComposeResult:
         with Vertical(classes="dialog choice"):
-            yield Label(self.question, classes="dialog-text")
+            yield Label(Content(printable(self.question, newlines=True)), classes="dialog-text")
             keys: list[str | tuple[str, str]] = []
             for key, label, _ in self.answers:
                 keys += [(f" {key} ", "bold reverse"), f" {label}    "]
-            keys += [(" esc ", "bold reverse"), " back"]
+            keys += [(" esc ", "bold reverse"), f" {self.escape_label}"]
             yield Label(Content.assemble(*keys), classes="dialog-keys")
 
     def on_key(self, event: events.Key) -> None:

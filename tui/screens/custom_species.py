@@ -9,11 +9,12 @@ from textual import on
 from textual.app import ComposeResult
 from textual.binding import Binding
 from textual.containers import Grid, Vertical
-from textual.screen import ModalScreen
 from textual.widgets import Input, Label
 
 import chem
 from chem.presets import custom_reagent
+from tui.screens.base import Dialog
+from tui.text import printable
 from tui.widgets.amount_input import AmountInput
 
 _ION_ENTRY = re.compile(r"^\s*(?:(\d+)\s*(?:x|×|\*)?\s*)?([A-Za-z][A-Za-z0-9]*[+-])\s*(?:(?:x|×|\*)?\s*(\d+))?\s*$")
@@ -53,7 +54,7 @@ def parse_counter_ions(text: str) -> dict[str, int]:
     return out
 
 
-class CustomSpeciesForm(ModalScreen["chem.Ingredient | None"]):
+class CustomSpeciesForm(Dialog["chem.Ingredient | None"]):
     """Defines an acid–base species with its counter-ions and adds it at an amount.
 
     The definition is checked by :mod:`chem` (the same rules as a ``[[custom]]``
@@ -129,7 +130,7 @@ class CustomSpeciesForm(ModalScreen["chem.Ingredient | None"]):
         try:
             ingredient = self.build()
         except (FormError, chem.ChemError) as exc:
-            self.query_one("#custom-error", Label).update(Content(str(exc)))
+            self.query_one("#custom-error", Label).update(Content(printable(exc)))
             return
         self.dismiss(ingredient)
 

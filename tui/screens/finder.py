@@ -11,6 +11,7 @@ from textual.widgets.option_list import Option
 
 import chem
 from tui.screens.picker import PickerScreen
+from tui.text import printable
 from tui.widgets.amount_input import AmountInput
 
 #: Amount offered for a newly picked reagent; the user types over it.
@@ -57,8 +58,8 @@ class IngredientFinder(PickerScreen["chem.Ingredient | None"]):
         out = []
         for reagent in matching_reagents(self.library, query):
             what = reagent.system.name if reagent.system is not None else "strong electrolyte"
-            prompt = Content.assemble((reagent.name, "bold"), "  ", (reagent.formula, "$secondary"),
-                                      "  ", (what, "dim"))
+            prompt = Content.assemble((printable(reagent.name), "bold"), "  ",
+                                      (printable(reagent.formula), "$secondary"), "  ", (printable(what), "dim"))
             out.append(Option(prompt, id=reagent.name))
         return out
 
@@ -67,7 +68,7 @@ class IngredientFinder(PickerScreen["chem.Ingredient | None"]):
         line = self.query_one("#finder-amount-line")
         line.display = True
         self.query_one("#finder-amount-label", Label).update(
-            Content.assemble("amount of ", (self.reagent.name, "bold"), ": "))
+            Content.assemble("amount of ", (printable(self.reagent.name), "bold"), ": "))
         amount = self.query_one("#finder-amount", AmountInput)
         amount.use_molar_mass(self.reagent.molar_mass)
         amount.focus()
@@ -76,7 +77,7 @@ class IngredientFinder(PickerScreen["chem.Ingredient | None"]):
     def _check_amount(self, event: Input.Changed) -> None:
         result = event.validation_result
         self.query_one("#finder-error", Label).update(
-            Content("" if result is None or result.is_valid else result.failure_descriptions[0]))
+            Content("" if result is None or result.is_valid else printable(result.failure_descriptions[0])))
 
     @on(Input.Submitted, "#finder-amount")
     def _add(self, event: Input.Submitted) -> None:
@@ -85,7 +86,7 @@ class IngredientFinder(PickerScreen["chem.Ingredient | None"]):
         assert isinstance(entry, AmountInput) and self.reagent is not None
         conc = entry.concentration
         if conc is None:
-            self.query_one("#finder-error", Label).update(Content(entry.problem or ""))
+            self.query_one("#finder-error", Label).update(Content(printable(entry.problem or "")))
             return
         self.dismiss(chem.Ingredient(self.reagent, conc, entry.value.strip()))
 

@@ -7,13 +7,15 @@ from pathlib import Path
 from textual.app import ComposeResult
 from textual.binding import Binding
 from textual.containers import Vertical, VerticalScroll
-from textual.screen import ModalScreen
 from textual.widgets import Label, Markdown
+
+from tui.screens.base import Dialog
+
 
 HELP_FILE = Path(__file__).resolve().parent.parent / "help.md"
 
 
-class HelpScreen(ModalScreen[None]):
+class HelpScreen(Dialog[None]):
     """Shows the help text; any of escape, F1 or q closes it."""
 
     BINDINGS = [

@@ -6,10 +6,11 @@ from textual.app import ComposeResult
 from textual.binding import Binding
 from textual.containers import Vertical, VerticalScroll
 from textual.content import Content
-from textual.screen import ModalScreen
 from textual.widgets import Label, Static
 
 import chem
+from tui.screens.base import Dialog
+from tui.text import printable
 
 #: What each warning means for the numbers, by code. Codes not listed get a general note.
 MEANING = {
@@ -29,7 +30,7 @@ CAUTION_MEANING = ("A safety caution is raised from the computed composition alo
 GENERAL = "See the message above; it names what the result depends on."
 
 
-class NoticeDetails(ModalScreen[None]):
+class NoticeDetails(Dialog[None]):
     """Every caution and warning of a result with its code, message and meaning."""
 
     BINDINGS = [Binding("escape,w,q", "close", "Close")]
@@ -47,12 +48,12 @@ class NoticeDetails(ModalScreen[None]):
                     yield Static("None for this mixture. The numbers still are model estimates.")
                 for notice in eq.cautions:
                     yield Static(Content.assemble(("CAUTION ", "bold $error"), (f"[{notice.code}]", "dim"), "\n",
-                                                  notice.message), classes="notice")
+                                                  printable(notice.message)), classes="notice")
                 if eq.cautions:
                     yield Static(Content(CAUTION_MEANING), classes="notice meaning")
                 for notice in eq.warnings:
                     yield Static(Content.assemble(("warning ", "bold $warning"), (f"[{notice.code}]", "dim"), "\n",
-                                                  notice.message, "\n",
+                                                  printable(notice.message), "\n",
                                                   (MEANING.get(notice.code, GENERAL), "italic")), classes="notice")
             yield Label("esc close", classes="dialog-hint")
 

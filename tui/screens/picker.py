@@ -9,9 +9,11 @@ from textual import on
 from textual.app import ComposeResult
 from textual.binding import Binding
 from textual.containers import Vertical
-from textual.screen import ModalScreen
 from textual.widgets import Input, Label, OptionList
 from textual.widgets.option_list import Option
+
+from tui.screens.base import Dialog
+
 
 T = TypeVar("T")
 
@@ -19,7 +21,7 @@ T = TypeVar("T")
 REFILL_DELAY = 1 / 60
 
 
-class PickerScreen(ModalScreen[T], Generic[T]):
+class PickerScreen(Dialog[T], Generic[T]):
     """A filter entry over an option list; up/down move through the list while you type.
 
     Subclasses provide :meth:`options` (what matches a query) and :meth:`picked`

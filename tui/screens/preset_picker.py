@@ -7,6 +7,7 @@ from textual.widgets.option_list import Option
 
 from tui.screens.picker import PickerScreen
 from tui.storage import PresetEntry
+from tui.text import one_line, printable
 
 
 class PresetPicker(PickerScreen["PresetEntry | None"]):
@@ -26,10 +27,10 @@ class PresetPicker(PickerScreen["PresetEntry | None"]):
             if q and q not in entry.title.casefold() and q not in entry.name.casefold():
                 continue
             origin = ("shipped", "$secondary") if entry.shipped else ("saved", "$success")
-            parts: list[str | tuple[str, str]] = [(entry.title, "bold"), "\n  ", origin, " · ",
-                                                  (entry.path.name, "dim")]
+            parts: list[str | tuple[str, str]] = [(printable(entry.title), "bold"), "\n  ", origin, " · ",
+                                                  (printable(entry.path.name), "dim")]
             if entry.problem:
-                parts += ["\n  ", (f"cannot open: {entry.problem}", "$error")]
+                parts += ["\n  ", (f"cannot open: {one_line(entry.problem, 300)}", "$error")]
             out.append(Option(Content.assemble(*parts), id=key, disabled=entry.problem is not None))
         return out
 

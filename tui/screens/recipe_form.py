@@ -8,7 +8,7 @@ scipy), and the result shows what to weigh or pipette, the ionic strength, the b
 capacity, the Henderson–Hasselbalch shortcut's pH beside the exact one, and warnings.
 
 API:
-    ``RecipeForm(library, *, target_pH=None, temperature_c=25.0, activity="davies")``, a
+    ``RecipeForm(library, *, target_pH=None, temperature_c=None, activity="davies")``, a
     ModalScreen that dismisses with a :class:`chem.Recipe` ("load into flask": enter,
     ctrl+l or the button), with ``("save", recipe)`` ("save as preset": ctrl+s or the
     button), or with None (escape).
@@ -32,14 +32,16 @@ from textual.containers import Grid, Horizontal, Vertical, VerticalScroll
 from textual.content import Content
 from textual.message import Message
 from textual.reactive import reactive
-from textual.screen import ModalScreen
 from textual.timer import Timer
 from textual.widget import Widget
 from textual.widgets import Button, Input, Label, Static
 from textual.worker import Worker, WorkerState, get_current_worker
 
 import chem
-from tui.widgets.curve_kinds import read_celsius, read_number
+from chem.limits import STANDARD_TEMPERATURE_C
+from tui.screens.base import Dialog
+from tui.text import printable
+from tui.widgets.curve_kinds import read_celsius, read_ph
 
 if TYPE_CHECKING:                    # chem.recipe needs scipy.optimize (~0.5 s): loaded in the worker only
     from chem.recipe import Recipe
@@ -108,7 +110,7 @@ class Cycler(Widget, can_focus=True):
 
     def render(self) -> Content:
         position = f"  {self.choices.index(self.value) + 1}/{len(self.choices)}" if len(self.choices) > 1 else ""
-        return Content.assemble(("◂ ", "dim"), self.value, (" ▸", "dim"), (position, "dim"))
+        return Content.assemble(("◂ ", "dim"), printable(self.value), (" ▸", "dim"), (position, "dim"))
 
 
 @dataclass(frozen=True)
@@ -158,7 +160,7 @@ def recipe_lines(recipe: Recipe) -> list[Content]:
     return lines
 
 
-class RecipeForm(ModalScreen["Recipe | tuple[str, Recipe] | None"]):
+class RecipeForm(Dialog["Recipe | tuple[str, Recipe] | None"]):
     """Designs a buffer recipe as the fields change; loads it into the flask or saves it as a preset.
 
     Dismisses with the :class:`chem.Recipe` (load into flask), ``("save", recipe)`` (save as
@@ -233,7 +235,7 @@ class RecipeForm(ModalScreen["Recipe | tuple[str, Recipe] | None"]):
         recipe: "Recipe | None"
         error: str | None
 
-    def __init__(self, library: chem.Library, *, target_pH: float | None = None, temperature_c: float = 25.0,
+    def __init__(self, library: chem.Library, *, target_pH: float | None = None, temperature_c: float | None = None,
                  activity: str = "davies") -> None:
         """Create the form.
 
@@ -247,7 +249,8 @@ class RecipeForm(ModalScreen["Recipe | tuple[str, Recipe] | None"]):
         self.library = library
         self.activity = activity
         self._initial = {"system": "", "ph": "" if target_pH is None else f"{target_pH:g}",
-                         "temp": f"{temperature_c:g}", "total": DEFAULT_TOTAL, "volume": DEFAULT_VOLUME}
+                         "temp": f"{STANDARD_TEMPERATURE_C if temperature_c is None else temperature_c:g}",
+                         "total": DEFAULT_TOTAL, "volume": DEFAULT_VOLUME}
         self.recipe: Recipe | None = None
         """The recipe for the fields as they are now, or None (not designed yet, or they cannot be)."""
         self._generation = 0
@@ -295,15 +298,15 @@ class RecipeForm(ModalScreen["Recipe | tuple[str, Recipe] | None"]):
                 problems[key] = named(field, exc)
 
         check("system", "system", lambda s: s and self.library.system(s))
-        check("ph", "target pH", lambda s: read_number(s, "target pH") if s else _missing())
-        check("temp", "temperature", lambda s: chem.Mixture((), temperature_c=read_celsius(s, "temperature")))
+        check("ph", "target pH", lambda s: read_ph(s, "target pH") if s else _missing())
+        check("temp", "temperature", lambda s: read_celsius(s, "temperature"))
         check("total", "total concentration", lambda s: chem.parse_concentration(s) if s else _missing())
         check("volume", "final volume", lambda s: chem.parse_volume(s) if s else _missing())
         return problems
 
     def ask(self) -> RecipeAsk:
         """The fields, read; only call when :meth:`_field_problems` finds none."""
-        return RecipeAsk(system=self._text("system") or None, target_pH=read_number(self._text("ph"), "target pH"),
+        return RecipeAsk(system=self._text("system") or None, target_pH=read_ph(self._text("ph"), "target pH"),
                          temperature_c=read_celsius(self._text("temp")), total=self._text("total"),
                          volume=self._text("volume"), salt=self._text("salt"),
                          form=self.query_one(Cycler).value, activity=self.activity)
@@ -413,11 +416,12 @@ class RecipeForm(ModalScreen["Recipe | tuple[str, Recipe] | None"]):
 
 def show_text(label: Label, text: str) -> None:
     """Show ``text`` in ``label`` as it is (never read as markup), redrawing only when it changed."""
+    text = printable(text)
     if str(label.content) != text:
         label.update(Content(text))
 
 
-def first_problem(problems: dict[str, str], screen: ModalScreen, prefix: str) -> str:
+def first_problem(problems: dict[str, str], screen: Dialog, prefix: str) -> str:
     """The problem of the field being typed in (id ``prefix`` + key), else the first one, else ""."""
     focused = screen.focused.id if screen.focused is not None and screen.focused.id else ""
     return problems.get(focused.removeprefix(prefix)) or next(iter(problems.values()), "")

@@ -9,11 +9,12 @@ from textual import on
 from textual.app import ComposeResult
 from textual.binding import Binding
 from textual.containers import Vertical
-from textual.screen import ModalScreen
 from textual.widgets import Input, Label
 
 from tui import storage
+from tui.screens.base import Dialog
 from tui.screens.choice import Choice
+from tui.text import printable
 
 
 @dataclass(frozen=True)
@@ -25,7 +26,7 @@ class SaveRequest:
     overwrite: bool
 
 
-class SavePreset(ModalScreen["SaveRequest | None"]):
+class SavePreset(Dialog["SaveRequest | None"]):
     """Asks for a preset name (and title); confirms before replacing an existing preset."""
 
     BINDINGS = [Binding("escape", "cancel", "Close", tooltip="Close without saving")]
@@ -33,8 +34,8 @@ class SavePreset(ModalScreen["SaveRequest | None"]):
 
     def __init__(self, name: str, title: str) -> None:
         super().__init__()
-        self.initial_name = name
-        self.initial_title = title
+        self.initial_name = printable(name)
+        self.initial_title = printable(title)         # a title from a shared file: shown (and kept) escaped
 
     def compose(self) -> ComposeResult:
         with Vertical(classes="dialog"):
@@ -44,7 +45,7 @@ class SavePreset(ModalScreen["SaveRequest | None"]):
             yield Label("title (shown in the preset list)", classes="dialog-hint")
             yield Input(self.initial_title, placeholder="what this mixture is for", id="save-title")
             yield Label("", id="save-error", classes="dialog-error")
-            yield Label(f"folder: {storage.presets_dir()}", classes="dialog-hint")
+            yield Label(Content(printable(f"folder: {self._folder()}")), classes="dialog-hint")
             yield Label("enter save · tab next field · esc close", classes="dialog-hint")
 
     @on(Input.Changed, "#save-name")
@@ -52,7 +53,7 @@ class SavePreset(ModalScreen["SaveRequest | None"]):
         try:
             storage.preset_path(event.value)
         except storage.StorageError as exc:
-            self.query_one("#save-error", Label).update(Content(str(exc)))
+            self.query_one("#save-error", Label).update(Content(printable(exc)))
         else:
             self.query_one("#save-error", Label).update("")
 
@@ -63,7 +64,7 @@ class SavePreset(ModalScreen["SaveRequest | None"]):
         try:
             path = storage.preset_path(name)
         except storage.StorageError as exc:
-            self.query_one("#save-error", Label).update(Content(str(exc)))
+            self.query_one("#save-error", Label).update(Content(printable(exc)))
             self.query_one("#save-name", Input).focus()
             return
         if not path.exists():
@@ -77,6 +78,13 @@ class SavePreset(ModalScreen["SaveRequest | None"]):
         self.app.push_screen(Choice(f"A preset called '{name}' already exists. Replace it?",
                                     [("y", "replace it", True), ("n", "keep it", False)], on_escape=False),
                              replace)
+
+    @staticmethod
+    def _folder() -> str:
+        try:
+            return str(storage.presets_dir())
+        except storage.StorageError as exc:
+            return f"none ({exc})"
 
     def action_cancel(self) -> None:
         self.dismiss(None)

@@ -19,18 +19,18 @@ from textual import on
 from textual.app import ComposeResult
 from textual.binding import Binding
 from textual.containers import Horizontal, Vertical
-from textual.screen import ModalScreen
 from textual.widgets import Input, Label
 
 import chem
 from chem.curves import ingredient_index
+from tui.screens.base import Dialog
 from tui.screens.recipe_form import Cycler, first_problem, named, show_text
 from tui.widgets.curve_kinds import MAX_SWEEP_POINTS, SweepSettings, default_sweep
 
 TEMPERATURE = "temperature"
 
 
-class SweepSetup(ModalScreen["SweepSettings | None"]):
+class SweepSetup(Dialog["SweepSettings | None"]):
     """Asks what varies and over which range; dismisses with the :class:`SweepSettings`."""
 
     DEFAULT_CSS = """

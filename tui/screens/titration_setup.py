@@ -20,20 +20,21 @@ from textual.app import ComposeResult
 from textual.binding import Binding
 from textual.containers import Horizontal, Vertical
 from textual.content import Content
-from textual.screen import ModalScreen
 from textual.widgets import Input, Label, OptionList
 from textual.widgets.option_list import Option
 
 import chem
+from tui.screens.base import Dialog
 from tui.screens.finder import matching_reagents
 from tui.screens.recipe_form import first_problem, named, show_text
+from tui.text import printable
 from tui.widgets.curve_kinds import (DEFAULT_SAMPLE, DEFAULT_TITRANT_CONC, DEFAULT_TO, TitrationSettings)
 
 #: Most titrant matches listed under the field while typing.
 MAX_MATCHES = 5
 
 
-class TitrationSetup(ModalScreen["TitrationSettings | None"]):
+class TitrationSetup(Dialog["TitrationSettings | None"]):
     """Asks for the titrant, its stock concentration, the sample volume and the last volume added."""
 
     DEFAULT_CSS = """
@@ -154,7 +155,7 @@ class TitrationSetup(ModalScreen["TitrationSettings | None"]):
         except chem.ChemError:
             exact = False
         if [r.name for r in found] != [listing.get_option_at_index(i).id for i in range(listing.option_count)]:
-            listing.set_options([Option(Content.assemble((r.name, "bold"), "  ", (r.formula, "dim")), id=r.name)
+            listing.set_options([Option(Content.assemble((printable(r.name), "bold"), "  ", (printable(r.formula), "dim")), id=r.name)
                                  for r in found])
             if found:
                 listing.highlighted = 0

@@ -14,7 +14,8 @@ API:
     ``draw_kind`` (from :mod:`plot_kinds`, re-exported) -> :class:`Drawing` for any kind.
     ``TitrationSettings`` / ``SweepSettings``: what the setup forms return (text as typed);
     ``default_titration(result)`` / ``default_sweep(mixture)``: the settings used when none are set.
-    ``read_number(text, what)`` / ``read_celsius(text, what)``: plain numbers typed in forms.
+    ``read_number(text, what)`` / ``read_celsius(text, what)``: numbers typed in forms (the temperature
+    read and range-checked by :func:`chem.units.parse_temperature`, as in the line commands).
     A ``None`` setting means "the default for the mixture on display", decided at build time.
 
 The explorer (``tui/app.py``) lists these after :data:`PLOT_KINDS`, imports this module on first
@@ -27,7 +28,6 @@ the app: the kind draws chem's one-line message in place of the plot, and ``v`` 
 from __future__ import annotations
 
 import math
-import re
 import textwrap
 from dataclasses import dataclass, replace
 from typing import Callable, Sequence
@@ -36,7 +36,9 @@ import numpy as np
 from textual.worker import NoActiveWorker, get_current_worker
 
 import chem
+import chem.units
 from chem import curves
+from chem.limits import PH_MAX, PH_MIN, check_ph, neutral_ph, ph_grid
 from tui.widgets.plot_kinds import (_BOX_TO_ASCII, RGB, Drawing, LegendLine, PlotKind, PlotRequest, draw,
                                     figure_text, grid_points, simplify)
 from tui.widgets.plot_kinds import draw_kind  # noqa: F401  (re-exported: one entry point for every kind)
@@ -48,8 +50,6 @@ CURVE_KIND_IDS = ("titration", "capacity", "sweep", "dilution")
 DEFAULT_TITRANT_CONC = "0.1 M"
 DEFAULT_SAMPLE = "25 mL"
 DEFAULT_TO = "50 mL"
-#: The mixture is titrated with a base up to this pH, with an acid above it.
-NEUTRAL_PH = 7.0
 #: Default sweep of the temperature, °C, and the number of points of a sweep.
 DEFAULT_T_RANGE = ("5", "50")
 DEFAULT_SWEEP_POINTS = 101
@@ -69,8 +69,6 @@ MAX_TITRATION_POINTS = 3000
 #: Text that a terminal without UTF-8 cannot show, spelled in ASCII (box drawing is handled by plot_kinds).
 _ASCII_TEXT = str.maketrans({"·": "-", "…": "...", "–": "-", "β": "beta", "°": "", "µ": "u"})
 
-_CELSIUS = re.compile(r"\s*(?:°\s*C|℃|C)\s*$", re.IGNORECASE)
-
 
 # --------------------------------------------------------------------------
 # settings, as typed in the setup forms
@@ -87,9 +85,17 @@ def read_number(text: str, what: str) -> float:
     return value
 
 
+def read_ph(text: str, what: str = "pH") -> float:
+    """A pH typed into a form, on the pH scale every command shares (:mod:`chem.limits`)."""
+    return check_ph(read_number(text, what), what)
+
+
 def read_celsius(text: str, what: str = "temperature") -> float:
-    """A temperature in °C typed as ``37``, ``37 °C`` or ``37C`` (the range is checked by chem)."""
-    return read_number(_CELSIUS.sub("", text), what)
+    """A temperature in °C typed as ``37``, ``37 °C``, ``37C`` or ``37 ℃``, within the model's range.
+
+    The same reading and the same range as every line command (:func:`chem.units.parse_temperature`).
+    """
+    return chem.units.parse_temperature(text, what)
 
 
 def _positive_volume(text: str, what: str) -> float:
@@ -143,8 +149,11 @@ class TitrationSettings:
 
 
 def default_titration(result: chem.Equilibrium) -> TitrationSettings:
-    """0.1 M NaOH into 25 mL of the mixture up to 50 mL; HCl instead when the mixture is basic."""
-    titrant = "NaOH" if result.pH <= NEUTRAL_PH else "HCl"
+    """0.1 M NaOH into 25 mL of the mixture up to 50 mL; HCl instead when the mixture is basic.
+
+    Basic means above neutral water at the mixture's temperature (pKw/2: 7.00 at 25 °C, 6.81 at 37 °C).
+    """
+    titrant = "NaOH" if result.pH <= neutral_ph(result.mixture.temperature_c) else "HCl"
     return TitrationSettings(titrant, DEFAULT_TITRANT_CONC, DEFAULT_SAMPLE, DEFAULT_TO)
 
 
@@ -170,9 +179,7 @@ class SweepSettings:
     def value(self, text: str, mixture: chem.Mixture, what: str) -> float:
         """One end of the range: mol/L of the ingredient, or °C (checked against the model's range)."""
         if self.is_temperature:
-            t = read_celsius(text, what)
-            mixture.with_temperature(t)                   # chem's range check and message
-            return t
+            return read_celsius(text, what)             # chem's reading, range and message
         reagent = self.ingredient(mixture).reagent
         return chem.parse_concentration(text, molar_mass=reagent.molar_mass)
 
@@ -246,7 +253,7 @@ def widened(lo: float, hi: float, most: int) -> tuple[tuple[float, float], list[
 def ph_axis(values: np.ndarray, most: int) -> tuple[tuple[float, float], list[float]]:
     """A y range for pH values, widened to round ticks and at least :data:`MIN_PH_SPAN` wide, and its ticks."""
     finite = values[np.isfinite(values)]
-    lo, hi = (float(finite.min()), float(finite.max())) if finite.size else (0.0, 14.0)
+    lo, hi = (float(finite.min()), float(finite.max())) if finite.size else (PH_MIN, PH_MAX)
     if hi - lo < MIN_PH_SPAN:
         mid = 0.5 * (lo + hi)
         lo, hi = mid - MIN_PH_SPAN / 2, mid + MIN_PH_SPAN / 2
@@ -437,7 +444,7 @@ def build_capacity(result: chem.Equilibrium, request: PlotRequest) -> Drawing:
     and 14 water's own β grows to about 2 M/pH and runs off the top, else it would flatten
     the buffer's peaks to nothing.
     """
-    grid = np.linspace(0.0, 14.0, grid_points(request.width))
+    grid = ph_grid(grid_points(request.width))
     cap = chem.buffer_capacity(result.mixture, grid, progress=_still_wanted)
     here = chem.buffer_capacity_at(result)
     shown = float(f"{here:.3g}")                     # three digits are all a reader needs

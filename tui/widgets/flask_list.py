@@ -27,6 +27,7 @@ from textual.widget import Widget
 from textual.widgets import Input, Label
 
 import chem
+from tui.text import printable
 from tui.widgets.amount_input import AmountInput
 
 HOLD_S = 0.15
@@ -126,7 +127,7 @@ class _EditRow(Vertical):
 
     def compose(self) -> ComposeResult:
         with Horizontal(classes="flask-line"):
-            yield Label(self.reagent_name, classes="flask-name")
+            yield Label(Content(printable(self.reagent_name)), classes="flask-name")
             yield self.editor
         yield Label("", id="flask-error")
 
@@ -254,7 +255,7 @@ class FlaskList(VerticalScroll, can_focus=True):
         self.post_message(self.Selected())
 
     def _paint(self) -> None:
-        entries = tuple((i.reagent.name, i.label) for i in self._ingredients)
+        entries = tuple((printable(i.reagent.name), printable(i.label)) for i in self._ingredients)
         amount_width = max((cell_len(label) for _, label in entries), default=0) + 1
         split = len(entries) if self._edited is None else self._edited
         self._above.show(entries[:split], 0, self.cursor, amount_width)
@@ -322,7 +323,7 @@ class FlaskList(VerticalScroll, can_focus=True):
         self._error = message
         row = self.query_one(_EditRow)
         row.set_class(message is not None, "-error")
-        row.query_one("#flask-error", Label).update(Content(message or ""))
+        row.query_one("#flask-error", Label).update(Content(printable(message or "")))
         if message is not None:
             self.call_after_refresh(self.scroll_to_widget, row, animate=False)
 

@@ -7,6 +7,7 @@ from textual.reactive import var
 from textual.widgets import Static
 
 import chem
+from tui.text import printable
 
 
 class NoticeBar(Static):
@@ -39,4 +40,4 @@ class NoticeBar(Static):
         if eq.warnings:
             counts.append(f"{len(eq.warnings)} warning{'s' * (len(eq.warnings) > 1)}")
         self.update(Content.assemble((f"⚠ {', '.join(counts)} ", "bold"), ("(w: details) ", "italic"),
-                                     notices[0].message), layout=False)
+                                     printable(notices[0].message)), layout=False)

@@ -7,11 +7,13 @@ from dataclasses import dataclass
 from rich.color import Color
 from rich.segment import Segment
 from rich.style import Style
+from textual.content import Content
 from textual.geometry import Size
 from textual.message import Message
 from textual.strip import Strip
 from textual.widget import Widget
 
+from tui.text import printable
 from tui.widgets.plot_kinds import RGB, SGR, Drawing
 
 
@@ -41,7 +43,7 @@ def prepare(drawing: Drawing, width: int, base: Style) -> PlotImage:
         segments, style, pos = [], body, 0
         for code in SGR.finditer(raw):
             if code.start() > pos:
-                segments.append(Segment(raw[pos:code.start()], style))
+                segments.append(Segment(printable(raw[pos:code.start()]), style))
             params = code.group(1)
             style = styles.get(params)
             if style is None:
@@ -50,10 +52,11 @@ def prepare(drawing: Drawing, width: int, base: Style) -> PlotImage:
                 style = styles[params] = _color(rgb, body)   # type: ignore[arg-type]
             pos = code.end()
         if pos < len(raw):
-            segments.append(Segment(raw[pos:], style))
+            segments.append(Segment(printable(raw[pos:]), style))
         strips.append(Strip(segments).crop_extend(0, width, base))
     for line in drawing.legend:
-        strips.append(Strip([Segment(text, _color(rgb, base)) for text, rgb in line]).crop_extend(0, width, base))
+        strips.append(Strip([Segment(printable(text), _color(rgb, base)) for text, rgb in line])
+                      .crop_extend(0, width, base))
     return PlotImage(tuple(strips), drawing.plain)
 
 
@@ -79,7 +82,7 @@ class PlotArea(Widget):
     def show(self, image: PlotImage, title: str) -> None:
         """Show a finished plot and name it in the border."""
         self.image = image
-        self.border_title = title
+        self.border_title = Content(printable(title))       # names from a file: no markup, no controls
         self.refresh()
 
     def render_line(self, y: int) -> Strip:

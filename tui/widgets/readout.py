@@ -18,6 +18,7 @@ from textual.strip import Strip
 from textual.widget import Widget
 
 import chem
+from tui.text import printable
 
 Piece = tuple[str, str]
 """A run of text and the name of its component style ("" for the panel's own)."""
@@ -101,7 +102,7 @@ class Readout(Widget):
         lines.append([])
         lines.append([("pKw ", "readout--dim"), (f"{eq.pKw:.3f}", ""), ("   balance error ", "readout--dim"),
                       (f"{abs(eq.balance_error):.1e} M", "")])
-        totals = ", ".join(f"{st.name} {chem.format_molar(st.total)}" for st in eq.systems) or "none"
+        totals = ", ".join(f"{printable(st.name)} {chem.format_molar(st.total)}" for st in eq.systems) or "none"
         wrapped = textwrap.wrap(f"systems {totals}", max(width, 20), break_on_hyphens=False) or [""]
         lines.append([("systems", "readout--dim"), (wrapped[0][len("systems"):], "")])
         lines += [[(more, "")] for more in wrapped[1:]]

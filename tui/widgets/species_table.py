@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import math
 
+from rich.cells import cell_len, set_cell_size
 from rich.segment import Segment
 from textual.app import ComposeResult
 from textual.containers import Vertical, VerticalScroll
@@ -18,11 +19,29 @@ from textual.strip import Strip
 from textual.widget import Widget
 
 import chem
+from tui.text import printable
 from tui.widgets.readout import signed
 
-#: (heading, width) of each column after the species name; numbers are right-aligned.
-COLUMNS = (("C / M", 9), ("log C", 6), ("α", 6), ("γ", 6))
-DELTA_COLUMN = ("Δlog C", 7)
+#: (heading, width) of each column after the species name; numbers are right-aligned, and every
+#: column is led by a space, so that even the widest number never runs into its neighbour
+#: ("5.45e-11 -10.26", not "5.45e-11-10.26").
+COLUMNS = (("C / M", 8), ("log C", 6), ("α", 5), ("γ", 5))
+DELTA_COLUMN = ("Δlog C", 6)
+
+
+#: Widest species name shown in full; a longer one is cut with an ellipsis, so the numbers stay in view.
+NAME_WIDTH_MAX = 16
+
+
+def _pad(text: str, width: int) -> str:
+    """``text`` in exactly ``width`` terminal cells: padded, or cut with an ellipsis (wide characters count double)."""
+    if cell_len(text) > width:
+        return set_cell_size(text, width - 1) + "…"
+    return text + " " * (width - cell_len(text))
+
+
+def _gamma(value: float) -> str:
+    return f"{value:.3f}" if value < 10 else f"{value:.2g}"
 
 
 def _log_c(value: float) -> str:
@@ -40,17 +59,18 @@ def _delta(now: chem.Species, before: chem.Species | None) -> str:
 def species_rows(eq: chem.Equilibrium, pinned: chem.Equilibrium | None) -> tuple[str, list[tuple[str, str]]]:
     """The heading and, per species, (numbers part, system) as fixed-width text."""
     columns = COLUMNS + ((DELTA_COLUMN,) if pinned is not None else ())
-    name_width = max(7, *(len(s.name) for s in eq.species))
-    heading = f"{'species':<{name_width}}" + "".join(f"{t:>{w}}" for t, w in columns) + "  system"
+    names = [printable(sp.name) for sp in eq.species]          # names can come from a shared preset
+    name_width = min(max(7, *(cell_len(n) for n in names)), NAME_WIDTH_MAX)
+    heading = _pad("species", name_width) + "".join(f" {t:>{w}}" for t, w in columns) + "  system"
     before = {(s.system, s.name): s for s in pinned.species} if pinned is not None else None
     rows = []
-    for sp in eq.species:
+    for sp, name in zip(eq.species, names):
         cells = [f"{sp.conc:.2e}", _log_c(sp.log_c),
-                 "" if sp.fraction is None else f"{sp.fraction:.3f}", f"{sp.activity_coefficient:.3f}"]
+                 "" if sp.fraction is None else f"{sp.fraction:.3f}", _gamma(sp.activity_coefficient)]
         if before is not None:
             cells.append(_delta(sp, before.get((sp.system, sp.name))))
-        rows.append((f"{sp.name:<{name_width}}" + "".join(f"{c:>{w}}" for c, (_, w) in zip(cells, columns)),
-                     f"  {sp.system}"))
+        rows.append((_pad(name, name_width) + "".join(f" {c:>{w}}" for c, (_, w) in zip(cells, columns)),
+                     f"  {printable(sp.system)}"))
     return heading, rows
 
 

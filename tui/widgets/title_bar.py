@@ -6,6 +6,8 @@ from textual.content import Content
 from textual.reactive import var
 from textual.widgets import Static
 
+from tui.text import printable
+
 
 class TitleBar(Static):
     """``protomix ● changed ◆ pinned <title> │ <source>``, the markers only when they apply."""
@@ -40,7 +42,7 @@ class TitleBar(Static):
             parts += [("● changed", "$warning"), " "]
         if self.pinned:
             parts += [("◆ pinned", "bold $accent"), " "]
-        parts += [" ", (self.heading or "untitled mixture", "bold")]
+        parts += [" ", (printable(self.heading) or "untitled mixture", "bold")]
         if self.source:
-            parts += ["  │ ", (self.source, "dim")]
+            parts += ["  │ ", (printable(self.source), "dim")]
         self.update(Content.assemble(*parts), layout=False)
