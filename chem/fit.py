@@ -851,11 +851,12 @@ def _fitted_mixture(mixture: Mixture, model: _Model, values: Sequence[FittedValu
     mix = mixture
     summary = []
     for p, fv in zip(model.params, values):
-        err = "" if fv.stderr is None else f" ± {fv.stderr:.3g}"
+        err = "" if fv.stderr is None else f" ± {fv.stderr:.2g}"
         if p.kind == "amount":
             ing = mix.ingredients[p.index]
             mix = mix.with_replaced(p.index, ing.with_conc(fv.value, format_molar(fv.value, 6)))
-            summary.append(f"{p.name} = {format_molar(fv.value, 5)}{err}")
+            err = "" if fv.stderr is None else f" ± {fv.stderr:.2g} M"
+            summary.append(f"{p.name} = {fv.value:.6g} M{err}")
         elif p.kind == "pKa":
             summary.append(f"{p.name} = {fv.value:.4f}{err}")
         else:
