@@ -23,7 +23,8 @@ from .units import parse_concentration, parse_volume
 _LAZY = {
     **{name: "curves" for name in ("CapacityCurve", "Curve", "CurveError", "EquivalencePoint", "TitrationCurve",
                                    "buffer_capacity", "dilution", "sweep", "titration")},
-    **{name: "recipe" for name in ("Recipe", "RecipeError", "design_buffer", "suggest_systems")},
+    **{name: "recipe" for name in ("Recipe", "RecipeError", "design_buffer", "design_metal_buffer",
+                                   "suggest_systems")},
 }
 
 
@@ -46,5 +47,5 @@ __all__ = [
     "parse_concentration", "parse_volume", "save_preset", "solve", "tableau", "__version__",
     "CapacityCurve", "Curve", "CurveError", "EquivalencePoint", "TitrationCurve", "buffer_capacity",
     "buffer_capacity_at", "dilution", "sweep", "titration",
-    "Recipe", "RecipeError", "design_buffer", "suggest_systems",
+    "Recipe", "RecipeError", "design_buffer", "design_metal_buffer", "suggest_systems",
 ]

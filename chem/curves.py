@@ -140,12 +140,15 @@ class Curve:
 
 @dataclass(frozen=True)
 class EquivalencePoint:
-    """An equivalence point: where pH changes fastest with added titrant."""
+    """An equivalence point: where pH (or the tracked pX) changes fastest with added titrant."""
 
     volume_L: float
     pH: float
     slope: float
     """dpH/dV there, pH per mL (negative when the pH falls)."""
+    level: float | None = None
+    """The tracked level (pH, or pX of the tracked species) there."""
+    level_slope: float | None = None
 
     @property
     def volume_mL(self) -> float:
@@ -164,6 +167,12 @@ class TitrationCurve(Curve):
     titrant_conc: float
     """mol/L of the titrant stock."""
     sample_volume_L: float
+    track: str | None = None
+    """The species whose level pX = −log10 a(X) is followed, or None (the pH)."""
+    level: np.ndarray | None = None
+    """pX at every point (None unless ``track``)."""
+    level_slope: np.ndarray | None = None
+    """dpX/dV, per mL."""
 
 
 @dataclass(frozen=True, eq=False)
@@ -395,7 +404,8 @@ def _is_called(reagent: Reagent, name: str) -> bool:
 
 def titration(mixture: Mixture, titrant: Reagent, titrant_conc: float, sample_volume_L: float,
               to_volume_L: float, *, from_volume_L: float = 0.0, points: int = 201, max_step: float = 0.05,
-              max_points: int = 20000, progress: Progress | None = None) -> TitrationCurve:
+              max_points: int = 20000, track: str | None = None,
+              progress: Progress | None = None) -> TitrationCurve:
     """pH vs volume of titrant added to a sample of ``mixture``, with equivalence points.
 
     Adding V of titrant stock (concentration c_t) to a sample of volume V0
@@ -427,6 +437,11 @@ def titration(mixture: Mixture, titrant: Reagent, titrant_conc: float, sample_vo
         Largest pH difference left between neighbouring points (default 0.05).
     max_points : int, optional
         Cap on the number of points after refinement.
+    track : str, optional
+        A species (e.g. "Ca^2+") whose level pX = −log10 a(X) is followed
+        besides the pH: the curve is refined where pX changes fast and the
+        equivalence points are the clear maxima of |dpX/dV| (a complexometric
+        titration).  Default: the pH.
     progress : callable, optional
         Called with the fraction done; return False to cancel.
 
@@ -434,7 +449,8 @@ def titration(mixture: Mixture, titrant: Reagent, titrant_conc: float, sample_vo
     -------
     TitrationCurve
         ``x`` is the added volume in mL, ``volume_L`` in L; ``slope`` is dpH/dV
-        in pH per mL; ``equivalence_points`` in order of volume.
+        in pH per mL; ``equivalence_points`` in order of volume (of pX when
+        ``track`` is given, with ``level``/``level_slope`` its values).
     """
     if not isinstance(titrant, Reagent):
         raise CurveError(f"titrant must be a reagent (got {titrant!r})")
@@ -461,15 +477,30 @@ def titration(mixture: Mixture, titrant: Reagent, titrant_conc: float, sample_vo
     def d_weights(v):       # per litre of titrant
         return np.column_stack([-v0 / (v0 + v) ** 2, c_t * v0 / (v0 + v) ** 2])
 
+    st = fam.st
+    if track is not None:
+        names = [info.name for info in st.species]
+        if track not in names:
+            raise CurveError(f"no species '{track}' in this titration (species: {', '.join(names)})")
+        r = names.index(track)
+        nu_r = st.nu[r]
+        lk_r = LN10 * float(st.log_k_at(fam.t_c)[r])
+
     def run(v, start=None):
-        return fam.run(weights(v), None, d_weights(v), start)
+        out = fam.run(weights(v), None, d_weights(v), start)
+        if track is not None:
+            out["level"] = -(lk_r + out["u"] @ nu_r) / LN10
+            out["dlevel"] = -(out["du"] @ nu_r) / LN10
+        else:
+            out["level"], out["dlevel"] = out["pH"], out["dpH"]
+        return out
 
     v = np.linspace(v_from, v_to, points)
     res = run(v)
     _report(progress, 0.2)
     min_width = 1e-12 * (v_to - v_from)
     for n_pass in range(80):
-        dph = np.abs(np.diff(res["pH"]))
+        dph = np.maximum(np.abs(np.diff(res["pH"])), np.abs(np.diff(res["level"])))
         need = np.nonzero((dph > max_step) & (np.diff(v) > min_width))[0]
         room = max_points - v.size
         if need.size == 0 or room <= 0:
@@ -496,7 +527,7 @@ def titration(mixture: Mixture, titrant: Reagent, titrant_conc: float, sample_vo
         _report(progress, 0.2 + 0.6 * (1.0 - 0.7 ** (n_pass + 1)))
     _report(progress, 0.8)
     slope = res["dpH"] / 1000.0
-    eqp = _equivalence_points(v, slope, res, run)
+    eqp = _equivalence_points(v, res["dlevel"] / 1000.0, res, run)
     _report(progress, 1.0)
 
     def build(i: int) -> Mixture:
@@ -505,7 +536,9 @@ def titration(mixture: Mixture, titrant: Reagent, titrant_conc: float, sample_vo
 
     return _make_curve(TitrationCurve, "titration", v * 1000.0, "volume_mL", res, fam, mixture, build,
                        volume_L=v, slope=slope, equivalence_points=eqp, titrant=titrant,
-                       titrant_conc=c_t, sample_volume_L=v0)
+                       titrant_conc=c_t, sample_volume_L=v0, track=track,
+                       level=res["level"] if track else None,
+                       level_slope=res["dlevel"] / 1000.0 if track else None)
 
 
 #: A maximum of |dpH/dV| counts as an equivalence point when it is at least
@@ -545,7 +578,7 @@ def _equivalence_points(v: np.ndarray, slope: np.ndarray, res: dict, run) -> tup
     for _ in range(10):
         grid = lo[:, None] + (hi - lo)[:, None] * frac[None, :]
         out = run(grid.ravel(), (np.repeat(start_u, k_grid, axis=0), np.repeat(start_i, k_grid)))
-        s = np.abs(out["dpH"]).reshape(idx.size, k_grid)
+        s = np.abs(out["dlevel"]).reshape(idx.size, k_grid)
         k = np.argmax(s, axis=1)
         kl, kr = np.maximum(k - 1, 0), np.minimum(k + 1, k_grid - 1)
         # vertex of the parabola through the three points around the maximum
@@ -562,8 +595,9 @@ def _equivalence_points(v: np.ndarray, slope: np.ndarray, res: dict, run) -> tup
         if np.all(hi - lo <= 1e-11 * (v[-1] - v[0])):
             break
     final = run(best, (start_u, start_i))
-    return tuple(EquivalencePoint(volume_L=float(b), pH=float(p), slope=float(d) / 1000.0)
-                 for b, p, d in zip(best, final["pH"], final["dpH"]))
+    return tuple(EquivalencePoint(volume_L=float(b), pH=float(p), slope=float(d) / 1000.0, level=float(lv),
+                                  level_slope=float(dl) / 1000.0)
+                 for b, p, d, lv, dl in zip(best, final["pH"], final["dpH"], final["level"], final["dlevel"]))
 
 
 # --------------------------------------------------------------------------
@@ -662,7 +696,7 @@ def dilution(mixture: Mixture, factors=None, *, points: int = 61,
 MIN_PRESSURE_ATM = 1e-15
 
 
-def _gas_named(mixture: Mixture, vary):
+def gas_named(mixture: Mixture, vary):
     """The gas ``vary`` names (a fixed gas of the mixture, a custom or a library gas), or None."""
     if not isinstance(vary, str):
         return None
@@ -723,7 +757,7 @@ def sweep(mixture: Mixture, vary, values, *, progress: Progress | None = None) -
     Curve
         ``x`` is ``values``; ``x_label`` is "temperature_C", "<reagent>_M" or "<gas>_atm".
     """
-    gas = _gas_named(mixture, vary)
+    gas = gas_named(mixture, vary)
     if gas is not None:
         p = _values(values, f"{gas.name} pressures", 0.0, 1000.0, " atm")
         held = np.maximum(p, MIN_PRESSURE_ATM)

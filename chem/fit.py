@@ -757,7 +757,8 @@ def _fitted_end_points(model: _Model, x, data: TitrationData) -> tuple[Equivalen
         dw = model.d_weights_dv(x, v)
         y = solve_columns(inp, res, columns_rhs(inp, res, d_totals=(dw @ model.fam.tot)[:, :, None],
                                                  d_inert_i=(dw @ model.fam.inert_i)[:, None]))
-        return {"pH": -res.u[:, 0] / LN10, "dpH": -y[:, 0, 0] / LN10, "u": res.u, "ionic": res.ionic}
+        ph, dph = -res.u[:, 0] / LN10, -y[:, 0, 0] / LN10
+        return {"pH": ph, "dpH": dph, "level": ph, "dlevel": dph, "u": res.u, "ionic": res.ionic}
 
     grid = np.linspace(v_lo, v_hi, EP_GRID)
     out = run(grid)

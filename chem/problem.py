@@ -263,10 +263,10 @@ def _problem(mixture: Mixture, struct: Structure) -> Problem:
     totals, q, i_s = component_totals(struct, mixture.ingredients)
     reactive = {ion.name for ion in struct.ions}
     inert = tuple((ion, c) for ion, c in mixture.strong_ions() if ion.name not in reactive)
-    zero = (totals <= 0.0) & ~struct.supplied
-    zero[0] = False
-    totals = np.where(totals <= 0.0, TINY_TOTAL, totals)
-    totals[0] = totals[0] if totals[0] != TINY_TOTAL else 0.0
+    low = totals <= 0.0
+    low[0] = False                       # the H+ total may be zero or negative (excess strong base)
+    zero = low & ~struct.supplied
+    totals = np.where(low, TINY_TOTAL, totals)
     fixed_p = {g.gas.name: g.pressure_atm for g in mixture.gases}
     pressures = np.array([fixed_p[struct.gases[g].name] for g in struct.fixed], dtype=float)
     return Problem(mixture, struct, totals, zero, q, i_s, inert, pressures, mixture.temperature_c)

@@ -34,14 +34,14 @@ from dataclasses import dataclass, replace
 from typing import Callable, Iterable, Iterator, Sequence
 
 import numpy as np
-from scipy.optimize import brentq
 
 from ._solver import solve
+from .roots import brent
 from .curves import buffer_capacity_at as buffer_capacity  # one definition of β for the tool
 from .errors import ChemError
 from .library import Library, load_library
 from .model import AcidBaseSystem, Equilibrium, Ingredient, Mixture, Notice, Reagent, format_molar
-from .units import parse_concentration, parse_volume
+from .units import MAX_CONC, parse_concentration, parse_volume
 
 #: The bench forms a recipe can be written in.
 FORMS = ("reagents", "titrant", "stocks")
@@ -155,6 +155,11 @@ class Recipe:
     checks: tuple[tuple[float, float], ...]
     """(temperature °C, pH) of the same solution at other temperatures."""
     warnings: tuple[Notice, ...]
+    free_species: str | None = None
+    """A metal buffer: the species whose free concentration was set (e.g. "Ca^2+")."""
+    free_target: float | None = None
+    """mol/L wanted."""
+    metal_salt: Reagent | None = None
 
     @property
     def pH(self) -> float:
@@ -210,7 +215,24 @@ class Recipe:
             "converged": bool(self.equilibrium.converged),
             "warnings": [{"code": w.code, "message": w.message} for w in self.warnings],
             "cautions": [{"code": c.code, "message": c.message} for c in self.cautions],
+            **self._free_dict(),
         }
+
+    @property
+    def free_reached(self) -> float | None:
+        """mol/L of the free species in the final solution (metal buffers)."""
+        if self.free_species is None:
+            return None
+        return self.equilibrium.get(self.free_species).conc
+
+    def _free_dict(self) -> dict:
+        if self.free_species is None:
+            return {}
+        sp = self.equilibrium.get(self.free_species)
+        return {"free_species": self.free_species, "free_target_M": self.free_target, "free_M": sp.conc,
+                "free_activity": sp.activity,
+                "pM": -math.log10(sp.activity) if sp.activity > 0 else None,
+                "metal_salt": self.metal_salt.name if self.metal_salt is not None else None}
 
 
 @dataclass(frozen=True)
@@ -383,8 +405,8 @@ def _solve_plan(req: _Request, plan: _Plan) -> tuple[float, float, Mixture, Equi
         if not eq_hi.pH <= req.target <= eq_lo.pH:
             raise _Unreachable(f"{plan.describe} spans only pH {eq_hi.pH:.3f} to {eq_lo.pH:.3f} "
                                f"at {req.t_c:g} °C")
-        level = brentq(lambda x: at_level(x, extra).pH - req.target, plan.lo, plan.hi,
-                       xtol=_LEVEL_XTOL, rtol=4 * np.finfo(float).eps, maxiter=200)
+        level = brent(lambda x: at_level(x, extra).pH - req.target, plan.lo, plan.hi,
+                      xtol=_LEVEL_XTOL, maxiter=200)
         return level, at_level(level, extra)
 
     if req.ionic_target is None:
@@ -397,8 +419,8 @@ def _solve_plan(req: _Request, plan: _Plan) -> tuple[float, float, Mixture, Equi
             raise RecipeError(f"the buffer alone already has ionic strength {eq0.ionic_strength:.4g} M, "
                               f"above the target {req.ionic_target:.4g} M; lower the total or drop the target")
         s_hi = req.ionic_target / per_unit
-        extra = brentq(lambda s: level_for(s)[1].ionic_strength - req.ionic_target, 0.0, s_hi,
-                       xtol=_SALT_XTOL, rtol=4 * np.finfo(float).eps, maxiter=200)
+        extra = brent(lambda s: level_for(s)[1].ionic_strength - req.ionic_target, 0.0, s_hi,
+                      xtol=_SALT_XTOL, maxiter=200)
         level, eq = level_for(extra)
     if abs(eq.pH - req.target) > _PH_TOL:
         raise RecipeError(f"could not settle the recipe on pH {req.target:g} (reached {eq.pH:.6f})")
@@ -859,5 +881,98 @@ def _capacity_recipe(sys_: AcidBaseSystem, target: float, t_c: float, total: flo
     raise RecipeError(f"{sys_.name}: no recipe reaches pH {target:g}")
 
 
+def parse_free(text: str) -> tuple[str, float]:
+    """ "Ca^2+=100 nM" -> ("Ca^2+", 1e-7)."""
+    if not isinstance(text, str) or "=" not in text:
+        raise RecipeError(f"a free level is written SPECIES=AMOUNT, e.g. 'Ca^2+=100 nM' (got {str(text)[:40]!r})")
+    name, _, amount = text.partition("=")
+    name = name.strip()
+    if not name:
+        raise RecipeError("a free level needs a species name before '=' (e.g. 'Ca^2+=100 nM')")
+    value = parse_concentration(amount.strip())
+    if not value > 0:
+        raise RecipeError("the free concentration wanted must be above 0")
+    return name, value
+
+
+def _metal_salt_for(metal: AcidBaseSystem, lib: Library, cation: str | None) -> Reagent:
+    """The usual salt to weigh for a metal: its chloride (any hydrate), else its nitrate."""
+    candidates = [r for r in lib.reagents_of(metal) if len(r.systems) == 1 and r.protons == 0]
+    for anion in ("Cl-", "NO3-"):
+        pick = [r for r in candidates if r.counter_ions and all(i.name == anion for i, _ in r.counter_ions)]
+        if pick:
+            return min(pick, key=lambda r: (r.molar_mass or 1e9))   # the anhydrous salt when there is one
+    raise RecipeError(f"the library has no chloride or nitrate of {metal.name}; give the salt with metal_salt")
+
+
+def design_metal_buffer(free: str, system: str | AcidBaseSystem, target_pH: float, *,
+                        temperature_c: float = 25.0, total="10 mM", volume="1 L", salts: Iterable = (),
+                        metal_salt=None, cation: str | None = None, titrant=None, titrant_conc=None,
+                        form: str = "titrant", activity: str = "davies",
+                        library: Library | None = None, **kwargs) -> Recipe:
+    """A metal buffer: how much metal salt (and pH adjustment) gives a free level of a species.
+
+    The chelator ``system`` (EDTA, EGTA, NTA, citrate, ATP ...) is made at
+    ``total``; the metal salt's amount is solved so that the free
+    concentration of ``free`` ("Ca^2+=100 nM") is reached at ``target_pH``,
+    ``temperature_c`` and the ionic strength of the final solution, through
+    the full equilibrium (every complex of the library, activity corrections).
+    The pH is adjusted as in :func:`design_buffer` (``form="titrant"``:
+    the chelator's free acid weighed, strong base pipetted).
+
+    The free level rises strictly with the metal added, so the amount is
+    found by Brent's method on log[M]free inside a bracket.
+    """
+    lib = library or load_library()
+    species, target = parse_free(free)
+    owner = lib.species_index.get(species)
+    if not isinstance(owner, AcidBaseSystem):
+        raise RecipeError(f"'{species}' is not a species of a library system (e.g. 'Ca^2+', 'Mg^2+', 'Zn^2+')")
+    salt = _reagent_of(metal_salt, lib) if metal_salt is not None else _metal_salt_for(owner, lib, cation)
+    if not any(s is owner for s, _ in salt.systems):
+        raise RecipeError(f"'{salt.name}' holds no {owner.name}; choose a salt of the metal")
+    units = next(n for s, n in salt.systems if s is owner)
+    chelator_total = _amount(total, parse_concentration, "total chelator concentration")
+    base_salts = list(salts)
+
+    def recipe_at(m: float) -> Recipe:
+        return design_buffer(system, target_pH, temperature_c=temperature_c, total=chelator_total, volume=volume,
+                             form=form, salts=base_salts + [(salt, m)], cation=cation, titrant=titrant,
+                             titrant_conc=titrant_conc, activity=activity, library=lib, **kwargs)
+
+    cache: dict[float, Recipe] = {}
+
+    def gap(m: float) -> float:
+        r = cache.get(m)
+        if r is None:
+            r = cache[m] = recipe_at(m)
+        got = r.equilibrium.get(species).conc
+        return math.log(max(got, 1e-300)) - math.log(target)
+
+    lo = target / units * 0.999              # free ≤ added: the level there is below the target
+    hi = (chelator_total * 2.0 + 10.0 * target) / units
+    for _ in range(40):
+        if gap(hi) > 0:
+            break
+        hi *= 2.0
+        if hi * units > MAX_CONC:
+            raise RecipeError(f"no amount of {salt.name} reaches free {species} {format_molar(target)} here")
+    else:
+        raise RecipeError(f"no amount of {salt.name} reaches free {species} {format_molar(target)} here")
+    if gap(lo) > 0:
+        raise RecipeError(f"free {species} is above {format_molar(target)} even without {salt.name}")
+    m = brent(gap, lo, hi, xtol=1e-15, rtol=1e-12, maxiter=200)
+    recipe = recipe_at(m)
+    reached = recipe.equilibrium.get(species).conc
+    if abs(math.log(reached / target)) > 1e-6:
+        raise RecipeError(f"could not settle free {species} on {format_molar(target)} (reached {format_molar(reached)})")
+    note = Notice("metal-buffer", f"{salt.name} is solved so that free {species} is {format_molar(target, 4)} at "
+                                  f"pH {target_pH:g} and {temperature_c:g} °C; the pH adjustment is made with the "
+                                  "metal present.")
+    return replace(recipe, free_species=species, free_target=target, metal_salt=salt,
+                   warnings=recipe.warnings + (note,))
+
+
 __all__ = ["FORMS", "Recipe", "RecipeError", "RecipeItem", "Shortcut", "Suggestion", "buffer_capacity",
-           "design_buffer", "dpka_dt", "parse_addition", "proton_level", "suggest_systems"]
+           "design_buffer", "design_metal_buffer", "dpka_dt", "parse_addition", "parse_free", "proton_level",
+           "suggest_systems"]

@@ -18,7 +18,8 @@ def add_band(res) -> None:
         added[f"{name}_lo"] = res.series[name] / factor
         added[f"{name}_hi"] = res.series[name] * factor
     res.series.update(added)
-    res.main = [*res.main, "pH_lo", "pH_hi"]
+    if res.main == ["pH"]:
+        res.main = ["pH", "pH_lo", "pH_hi"]
     widest = float(band.pH_sd.max()) if band.pH_sd.size else 0.0
     res.notes.append(f"95 % band from the constants' uncertainties (first order; default ±{DEFAULT_PKA_SD:g} "
                      f"per pKa and ±{DEFAULT_LOG_K_SD:g} per log K where the source states none): "

@@ -34,13 +34,22 @@ EPILOG = """examples:
   protomix curve buffer.toml --kind sweep --vary "sodium chloride" --from "0 mM" --to "500 mM" --points 101 --csv
   protomix curve buffer.toml --kind sweep --vary temperature --from 4 --to 60 --species HPO4^2-
   protomix curve buffer.toml --kind distribution --species H2PO4-,HPO4^2-
+  protomix curve plating.toml --kind distribution --system copper
+  protomix curve scale.toml --kind solubility --solid calcite --from 6 --to 10
+  protomix curve scale.toml --kind saturation
+  protomix curve hardness.toml --kind titration --titrant "disodium EDTA dihydrate" --titrant-conc "10 mM" \
+      --sample "50 mL" --to "20 mL" --species "Ca^2+"
+  protomix curve medium.toml --kind sweep --vary CO2 --from 0 --to "5 %"
 
 --from/--to mean: titration, titrant volumes (default from 0 mL); sweep, amounts of
 the varied ingredient (e.g. "1 mM") or temperatures in °C; dilution, dilution factors
-(default 1 to 1000); capacity, distribution, logc, pH (default 0 to 14).
+(default 1 to 1000); capacity, distribution, logc, pH (default 0 to 14); distribution
+--system, solubility and saturation, pH (default 2 to 12), imposed at each point as a
+pH-stat would hold it, with the mixture's totals as given. A titration with --species X
+also follows pX = -log10 a(X) and finds its equivalence points on pX.
 Species series are concentrations in mol/L (fractions of their system with --fractions)."""
 
-KINDS = ("titration", "capacity", "dilution", "sweep", "distribution", "logc")
+KINDS = ("titration", "capacity", "dilution", "sweep", "distribution", "logc", "solubility", "saturation")
 
 #: Options that only make sense for some kinds (dest -> (option, kinds)).
 _ONLY_FOR = {
@@ -52,14 +61,17 @@ _ONLY_FOR = {
     "fractions": ("--fractions", ("titration", "dilution", "sweep")),
     "species": ("--species", ("titration", "dilution", "sweep", "distribution", "logc")),
     "uncertainty": ("--uncertainty", ("titration", "dilution", "sweep")),
+    "system": ("--system", ("distribution",)),
+    "solid": ("--solid", ("solubility",)),
 }
 _REQUIRED = {
     "titration": (("titrant", "--titrant"), ("titrant_conc", "--titrant-conc"), ("sample", "--sample"),
                   ("stop", "--to")),
     "sweep": (("vary", "--vary"), ("start", "--from"), ("stop", "--to")),
+    "solubility": (("solid", "--solid"),),
 }
 _DEFAULT_POINTS = {"titration": 201, "capacity": 281, "dilution": 61, "sweep": 101, "distribution": 281,
-                   "logc": 281}
+                   "logc": 281, "solubility": 201, "saturation": 201}
 
 
 def add_arguments(parser) -> None:
@@ -78,7 +90,13 @@ def add_arguments(parser) -> None:
     tit.add_argument("--max-step", type=float, metavar="PH",
                      help="largest pH step left between neighbouring points (default 0.05)")
     swp = parser.add_argument_group("sweep")
-    swp.add_argument("--vary", metavar="NAME", help="ingredient whose amount varies, or 'temperature'")
+    swp.add_argument("--vary", metavar="NAME", help="ingredient whose amount varies, 'temperature', "
+                     "or a gas held over the solution (e.g. CO2; --from/--to as pressures)")
+    spc = parser.add_argument_group("speciation")
+    spc.add_argument("--system", metavar="NAME", help="distribution: every species and solid holding this "
+                     "system, as its share of the system's total (pH imposed)")
+    spc.add_argument("--solid", metavar="NAME", help="solubility: the solid held in excess; series are the "
+                     "dissolved totals of the systems it holds")
     sel = parser.add_argument_group("series")
     sel.add_argument("--species", action="append", metavar="NAME[,NAME...]",
                      help="species to include (repeatable; 'all' for every species)")
@@ -120,6 +138,9 @@ class _Result:
     not_converged: int = 0
     curve: object = None
     """The chem curve behind the series (titration, dilution, sweep), for --uncertainty."""
+    level_name: str | None = None
+    """A titration's tracked level (e.g. "pCa"), reported with each equivalence point."""
+    levels: list[float] = field(default_factory=list)
 
 
 def _fail(message: str):
@@ -190,6 +211,19 @@ def _curve_species(curve, args, default_all: bool) -> tuple[dict[str, np.ndarray
     return {n: get(n) for n in names}, names
 
 
+def p_label(species: str) -> str:
+    """The level name of a species: "Ca^2+" -> "pCa", "Cu(NH3)4^2+" -> "pCu(NH3)4"."""
+    base = species
+    for suffix in ("+", "-"):
+        if base.endswith(suffix):
+            base = base[:-1]
+            head, _, n = base.rpartition("^")
+            if head and n.isdigit():
+                base = head
+            break
+    return "p" + base
+
+
 def _titration(args, mixture, progress) -> _Result:
     from chem import parse_concentration, parse_volume
     from chem.curves import find_reagent, titration
@@ -198,29 +232,48 @@ def _titration(args, mixture, progress) -> _Result:
     conc = parse_concentration(args.titrant_conc, molar_mass=titrant.molar_mass)
     sample = parse_volume(args.sample)
     start = 0.0 if args.start is None else parse_volume(args.start)
+    track = None
+    if args.species:
+        first = next((n.strip() for item in args.species for n in item.split(",") if n.strip()), None)
+        if first is not None and first.lower() != "all":
+            track = first
     curve = titration(mixture, titrant, conc, sample, parse_volume(args.stop), from_volume_L=start,
                       points=args.points or _DEFAULT_POINTS["titration"],
-                      max_step=0.05 if args.max_step is None else args.max_step, progress=progress)
+                      max_step=0.05 if args.max_step is None else args.max_step, track=track, progress=progress)
     species, names = _curve_species(curve, args, default_all=False)
-    series = {"pH": curve.pH, "dpH_dmL": curve.slope, "ionic_strength_M": curve.ionic_strength, **species}
+    series = {"pH": curve.pH, "dpH_dmL": curve.slope, "ionic_strength_M": curve.ionic_strength}
+    main, ylabel = ["pH"], "pH"
+    level = p_label(track) if track else "pH"
+    if track:
+        series[level] = curve.level
+        series[f"d{level}_dmL"] = curve.level_slope
+        main, ylabel = [level], level
+    series.update(species)
     eqp = [(e.volume_mL, e.pH) for e in curve.equivalence_points]
+    levels = [e.level for e in curve.equivalence_points]
     notes = [f"titrant {titrant.name}, {args.titrant_conc.strip()}, into a {args.sample.strip()} sample; "
              f"{len(curve)} points"]
-    notes += [f"equivalence point {i + 1}: {v:.4f} mL, pH {p:.3f}" for i, (v, p) in enumerate(eqp)]
+    notes += [f"equivalence point {i + 1}: {v:.4f} mL, pH {p:.3f}" + (f", {level} {lv:.3f}" if track else "")
+              for i, ((v, p), lv) in enumerate(zip(eqp, levels))]
     if not eqp:
         notes.append("no clear equivalence point in this range")
-    return _Result("titration", curve.x_label, curve.x, series, ["pH"], "pH", "titrant added (mL)",
-                   extra=names, extra_label="fraction" if args.fractions else "mol/L",
-                   marks=[v for v, _ in eqp], equivalence=eqp, notes=notes,
-                   not_converged=int((~curve.converged).sum()), curve=curve)
+    res = _Result("titration", curve.x_label, curve.x, series, main, ylabel, "titrant added (mL)",
+                  extra=names, extra_label="fraction" if args.fractions else "mol/L",
+                  marks=[v for v, _ in eqp], equivalence=eqp, notes=notes,
+                  not_converged=int((~curve.converged).sum()), curve=curve)
+    if track:
+        res.level_name = level
+        res.levels = levels
+    return res
 
 
 def _ph_grid(args):
     """The pH grid of --from/--to/--points for the pH-axis kinds (default 0..14)."""
     import numpy as np
 
-    lo = _number(args.start, "--from", "pH", 0.0)
-    hi = _number(args.stop, "--to", "pH", 14.0)
+    held = args.kind in ("solubility", "saturation") or (args.kind == "distribution" and args.system)
+    lo = _number(args.start, "--from", "pH", 2.0 if held else 0.0)
+    hi = _number(args.stop, "--to", "pH", 12.0 if held else 14.0)
     if not hi > lo:
         _fail(f"--from must be below --to (got {lo:g} and {hi:g})")
     return np.linspace(lo, hi, args.points or _DEFAULT_POINTS[args.kind])
@@ -268,11 +321,28 @@ def _sweep(args, mixture, progress) -> _Result:
     from chem import parse_concentration
     from chem.curves import ingredient_index, sweep
 
+    from chem.curves import gas_named
+
     points = args.points or _DEFAULT_POINTS["sweep"]
+    gas = gas_named(mixture, args.vary)
     if args.vary.strip().lower() == "temperature":
         lo = _number(args.start, "--from", "temperature")
         hi = _number(args.stop, "--to", "temperature")
         vary, xlabel = "temperature", "temperature (°C)"
+    elif gas is not None:
+        from chem.units import parse_pressure
+
+        def pressure(text, option):
+            if text is not None and text.strip() in ("0", "0.0", "0 atm", "0 %", "0 ppm", "0 uatm"):
+                return 0.0
+            try:
+                return parse_pressure(text)
+            except Exception as exc:  # noqa: BLE001 - a ChemError with the reason
+                _fail(f"{option}: {exc}")
+
+        lo = pressure(args.start, "--from")
+        hi = pressure(args.stop, "--to")
+        vary, xlabel = gas.name, f"{gas.name} partial pressure (atm)"
     else:
         ing = mixture.ingredients[ingredient_index(mixture, args.vary)]
         mm = ing.reagent.molar_mass
@@ -284,7 +354,15 @@ def _sweep(args, mixture, progress) -> _Result:
     curve = sweep(mixture, vary, np.linspace(lo, hi, points), progress=progress)
     species, names = _curve_species(curve, args, default_all=False)
     series = {"pH": curve.pH, "ionic_strength_M": curve.ionic_strength, **species}
+    # saturation index of every candidate solid, keyed by the solid's name
+    for k, solid in enumerate(curve.solids):
+        series[solid] = curve.saturation[:, k]
+    for k, gas_name in enumerate(curve.gases):
+        if gas is None or gas_name != gas.name:          # the varied gas is already the x axis
+            series[f"{gas_name}_atm"] = curve.gas_pressure[:, k]
     notes = [f"pH {curve.pH[0]:.3f} at {args.start.strip()}, {curve.pH[-1]:.3f} at {args.stop.strip()}"]
+    if curve.solids:
+        notes.append("series named after a solid are its saturation index; <gas>_atm the partial pressure")
     return _Result("sweep", curve.x_label, curve.x, series, ["pH"], "pH", xlabel, extra=names,
                    extra_label="fraction" if args.fractions else "mol/L", notes=notes,
                    not_converged=int((~curve.converged).sum()), curve=curve)
@@ -296,6 +374,8 @@ def _diagram(args, mixture, progress) -> _Result:
 
     grid = _ph_grid(args)
     eq = solve(mixture)
+    if args.kind == "distribution" and args.system:
+        return _held_diagram(args, mixture, grid, eq)
     if args.kind == "distribution":
         diagram = distribution(mixture, grid, ionic_strength=eq.ionic_strength)
         ylabel = "fraction"
@@ -309,8 +389,38 @@ def _diagram(args, mixture, progress) -> _Result:
     return _Result(args.kind, "pH", diagram.ph, series, names, ylabel, "pH", marks=marks, notes=notes)
 
 
+def _held_diagram(args, mixture, grid, eq) -> _Result:
+    """distribution --system, solubility and saturation: the pH imposed at each point."""
+    from chem.diagrams import saturation, solubility, system_distribution
+
+    if args.kind == "distribution":
+        d = system_distribution(mixture, args.system, grid)
+        ylabel, note = "fraction", f"every form of {args.system}, as its share of the system's total"
+    elif args.kind == "solubility":
+        d = solubility(mixture, args.solid, grid)
+        ylabel, note = "dissolved (mol/L)", f"with an excess of {args.solid}: dissolved total of each system it holds"
+    else:
+        d = saturation(mixture, grid)
+        ylabel, note = "saturation index", "SI = log(IAP/Ksp) of every candidate solid (0: saturated)"
+    if not d.series:
+        _fail("nothing to draw: this mixture has no candidate solids" if args.kind == "saturation"
+              else "nothing to draw")
+    names = list(d.series)
+    series = {"pH": d.ph, **d.series}
+    notes = [note, "pH imposed at each point (as a pH-stat holds it); the mixture's totals as given"]
+    marks = [eq.pH] if grid[0] <= eq.pH <= grid[-1] else []
+    bad = 0 if d.converged is None else int((~d.converged).sum())
+    return _Result(args.kind, "pH", d.ph, series, names, ylabel, "pH", marks=marks, notes=notes, not_converged=bad)
+
+
+def _held(args, mixture, progress) -> _Result:
+    from chem import solve
+
+    return _held_diagram(args, mixture, _ph_grid(args), solve(mixture))
+
+
 _COMPUTE = {"titration": _titration, "capacity": _capacity, "dilution": _dilution, "sweep": _sweep,
-            "distribution": _diagram, "logc": _diagram}
+            "distribution": _diagram, "logc": _diagram, "solubility": _held, "saturation": _held}
 
 
 # --------------------------------------------------------------------------
@@ -328,6 +438,9 @@ def to_json(res: _Result) -> dict:
            "series": {name: [_num(v) for v in values] for name, values in res.series.items()}}
     if res.kind == "titration":
         doc["equivalence_points"] = [{"volume_mL": _num(v), "pH": _num(p)} for v, p in res.equivalence]
+        if res.level_name:
+            for point, level in zip(doc["equivalence_points"], res.levels):
+                point[res.level_name] = _num(level)
     return doc
 
 

@@ -7,6 +7,7 @@ All chemistry (the design, unit reading, the shortcut comparison) happens in
 from __future__ import annotations
 
 import json
+import math
 import sys
 from pathlib import Path
 
@@ -53,6 +54,11 @@ def add_arguments(parser) -> None:
                         help="also report the pH of the same solution at this temperature (repeatable)")
     parser.add_argument("--activity", choices=("davies", "extended-dh", "ideal"), default="davies",
                         help="activity model (default davies)")
+    parser.add_argument("--free", metavar='"SPECIES=CONC"',
+                        help='metal buffer: the free level wanted, e.g. "Ca^2+=100 nM" (with --system NAME of '
+                             "the chelator: edta, egta, nta, citrate, atp ...)")
+    parser.add_argument("--metal-salt", metavar="NAME",
+                        help="with --free: the metal salt weighed (default the metal's chloride)")
     parser.add_argument("--save", metavar="FILE.toml", help="save the final solution as a preset")
     parser.add_argument("--force", action="store_true", help="let --save replace an existing file")
     parser.add_argument("--suggest", action="store_true", help="rank buffer systems for --pH and --temp")
@@ -95,6 +101,11 @@ def render_recipe(recipe) -> str:
         out.append(f"  predicts pH {sc.pH:.3f} for this recipe ({sc.pH - recipe.pH:+.3f} against the full equilibrium)")
     if sc.recipe_pH is not None:
         out.append(f"  a recipe designed by the shortcut would really give pH {sc.recipe_pH:.3f} at {t:g} °C")
+    if recipe.free_species is not None:
+        sp = eq.get(recipe.free_species)
+        out.append(f"free {recipe.free_species}: {format_molar(sp.conc, 4)} (wanted {format_molar(recipe.free_target, 4)}), "
+                   f"p{recipe.free_species.split('^')[0].rstrip('+-')} {-math.log10(sp.activity):.3f} "
+                   f"(−log activity)")
     out += notice_lines(recipe)
     out.append("")
     out.append("Model estimate: check with a calibrated pH meter at the working temperature.")
@@ -141,16 +152,33 @@ def run(args) -> int:
             print(render_suggestions(sugg, args.pH, args.temp))
         return 0
 
+    if args.metal_salt is not None and args.free is None:
+        print("protomix: error: --metal-salt goes with --free", file=sys.stderr)
+        return 2
+    if args.free is not None and args.system is None:
+        print("protomix: error: --free needs --system: the chelator (e.g. egta, edta, nta, citrate, atp)",
+              file=sys.stderr)
+        return 2
     if args.save and not args.force and Path(args.save).exists():
         print(f"protomix: error: {args.save} already exists; not overwritten (add --force to replace it)",
               file=sys.stderr)
         return 2
-    recipe = design_buffer(
-        args.system, args.pH, temperature_c=args.temp, total=args.total, volume=args.volume, form=args.form,
-        salts=args.salt, ionic_strength=args.ionic_strength, ionic_salt=args.ionic_salt,
-        acid_form=args.acid_form, base_form=args.base_form, cation=args.cation, titrant=args.titrant,
-        titrant_conc=args.titrant_conc, stock_conc=args.stock_conc, check_temperatures=args.check_temp,
-        activity=args.activity)
+    if args.free is not None:
+        from chem.recipe import design_metal_buffer
+
+        form = args.form if args.form != "reagents" else "titrant"
+        recipe = design_metal_buffer(
+            args.free, args.system, args.pH, temperature_c=args.temp, total=args.total, volume=args.volume,
+            salts=args.salt, metal_salt=args.metal_salt, cation=args.cation, titrant=args.titrant,
+            titrant_conc=args.titrant_conc, form=form, activity=args.activity,
+            acid_form=args.acid_form, base_form=args.base_form, check_temperatures=args.check_temp)
+    else:
+        recipe = design_buffer(
+            args.system, args.pH, temperature_c=args.temp, total=args.total, volume=args.volume, form=args.form,
+            salts=args.salt, ionic_strength=args.ionic_strength, ionic_salt=args.ionic_salt,
+            acid_form=args.acid_form, base_form=args.base_form, cation=args.cation, titrant=args.titrant,
+            titrant_conc=args.titrant_conc, stock_conc=args.stock_conc, check_temperatures=args.check_temp,
+            activity=args.activity)
     if args.json:
         json.dump(recipe.to_dict(), sys.stdout, indent=2, ensure_ascii=False)
         sys.stdout.write("\n")

@@ -61,10 +61,64 @@ def render_table(eq) -> str:
     if eq.systems:
         out.append("")
         out.append("totals: " + ", ".join(f"{st.name} {format_molar(st.total)}" for st in eq.systems))
+    out += _where_lines(eq)
+    out += _solid_lines(eq)
+    out += _gas_lines(eq)
+    out += _water_lines(eq)
     out += notice_lines(eq)
     out.append("")
     out.append("Model estimate: check against measurement; defer to safety data sheets, local codes and licensed practice.")
     return "\n".join(out)
+
+
+def _where_lines(eq) -> list[str]:
+    """Where each system bound in complexes or solids is: its forms, largest share first."""
+    from chem import format_molar
+
+    out = []
+    for st in eq.systems:
+        own = {s.name for s in eq.species if s.system == st.name}
+        if all(name in own for name, _ in st.distribution):
+            continue                     # only its own acid–base forms: the species table says it all
+        if not out:
+            out += ["", "where each system is (share of its total)"]
+        shares = [f"{name} {share:.1%}" for name, share in st.distribution if share >= 0.0005][:6]
+        out.append(f"  {st.name:<22} total {format_molar(st.total, 4):<10} free {format_molar(st.free, 4):<10} "
+                   + ", ".join(shares))
+    return out
+
+
+def _solid_lines(eq) -> list[str]:
+    if not eq.solids:
+        return []
+    out = ["", f"  {'solid':<22} {'formula':<14} {'SI':>7} {'log Ksp':>8} {'amount / M':>11}  may form"]
+    for s in eq.solids:
+        mark = "  supersaturated" if s.saturation_index > 1e-6 and s.amount == 0.0 else ""
+        out.append(f"  {s.name:<22} {s.formula:<14} {s.saturation_index:7.2f} {s.log_k:8.2f} "
+                   f"{s.amount:11.4e}  {'yes' if s.allowed else 'no'}{mark}")
+    return out
+
+
+def _gas_lines(eq) -> list[str]:
+    if not eq.gases:
+        return []
+    out = ["", f"  {'gas':<10} {'pressure / atm':>14} {'ppm':>10} {'dissolved / M':>14} {'uptake / M':>11}"]
+    for g in eq.gases:
+        how = "held" if g.fixed else "over the solution"
+        out.append(f"  {g.name:<10} {g.pressure_atm:14.4e} {g.pressure_atm * 1e6:10.4g} {g.dissolved:14.4e} "
+                   f"{g.uptake:11.3e}  {how}")
+    return out
+
+
+def _water_lines(eq) -> list[str]:
+    names = {s.name for s in eq.systems}
+    if not names & {"calcium", "magnesium", "carbonate"}:
+        return []
+    out = ["", f"alkalinity {eq.alkalinity * 1000:.4g} meq/L = {eq.alkalinity_mg_l:.4g} mg/L as CaCO3"]
+    hardness = eq.hardness_mg_l
+    if hardness is not None:
+        out[-1] += f"   hardness {hardness:.4g} mg/L as CaCO3"
+    return out
 
 
 def run(args) -> int:
