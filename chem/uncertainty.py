@@ -41,8 +41,9 @@ from .errors import ChemError
 from .model import Equilibrium, Mixture
 from .problem import LN10, TINY_TOTAL, compile, component_totals
 
-__all__ = ["DEFAULT_LOG_K_SD", "DEFAULT_PKA_SD", "METHODS", "Contribution", "SpeciesUncertainty", "Uncertainty",
-           "UncertaintyError", "curve_band", "propagate"]
+__all__ = ["DEFAULT_LOG_K_SD", "DEFAULT_PKA_SD", "METHODS", "WEIGHING_REL_SD", "Band", "Contribution",
+           "RecipeUncertainty", "SpeciesUncertainty", "Uncertainty", "UncertaintyError", "curve_band", "propagate",
+           "recipe_uncertainty"]
 
 METHODS = ("first-order", "monte-carlo")
 #: z of the two-sided 95 % interval of a normal distribution.
@@ -361,3 +362,43 @@ def mixture_uncertainty(mixture: Mixture, **kwargs) -> Uncertainty:
     from ._solver import solve
 
     return propagate(solve(mixture), **kwargs)
+
+
+#: Relative standard uncertainty taken for every weighed or pipetted amount of a recipe:
+#: ±1 % on each mass, read as one standard deviation (common practice for a laboratory
+#: balance and volumetric ware at bench amounts).
+WEIGHING_REL_SD = 0.01
+
+
+@dataclass(frozen=True)
+class RecipeUncertainty:
+    """How far a recipe's pH could be off: from the constants and from weighing."""
+
+    pH: float
+    constants_sd: float
+    weighing_sd: float
+    rel_sd: float
+    defaults: tuple[str, ...]
+
+    @property
+    def sd(self) -> float:
+        return math.hypot(self.constants_sd, self.weighing_sd)
+
+    @property
+    def interval_95(self) -> tuple[float, float]:
+        return self.pH - Z95 * self.sd, self.pH + Z95 * self.sd
+
+    def to_dict(self) -> dict:
+        lo, hi = self.interval_95
+        return {"method": "first-order", "pH_sd": self.sd, "interval_95": [lo, hi],
+                "from_constants_sd": self.constants_sd, "from_weighing_sd": self.weighing_sd,
+                "weighing_rel_sd": self.rel_sd, "defaults_used_for": list(self.defaults),
+                "default_pKa_sd": DEFAULT_PKA_SD, "default_log_K_sd": DEFAULT_LOG_K_SD}
+
+
+def recipe_uncertainty(eq: Equilibrium, rel_sd: float = WEIGHING_REL_SD) -> RecipeUncertainty:
+    """The pH uncertainty of a solution made up as ``eq.mixture``: constants, and ``rel_sd`` on every amount."""
+    unc = propagate(eq, amount_rel_sd=rel_sd)
+    const = math.sqrt(sum(c.pH_sd ** 2 for c in unc.contributions if not c.key.startswith("amount:")))
+    weigh = math.sqrt(sum(c.pH_sd ** 2 for c in unc.contributions if c.key.startswith("amount:")))
+    return RecipeUncertainty(eq.pH, const, weigh, rel_sd, unc.defaults)
