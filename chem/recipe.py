@@ -207,7 +207,6 @@ class Recipe:
     def to_dict(self) -> dict:
         """The JSON object of ``protomix recipe --json``."""
         return {
-            "uncertainty": self.uncertainty.to_dict(),
             "format": 1,
             "system": self.system.name,
             "target_pH": self.target_pH,
