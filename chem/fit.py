@@ -45,7 +45,7 @@ import numpy as np
 from . import _kernel as K
 from ._sens import DEFAULT_PKA_SD, columns_rhs, constant_derivatives, solve_columns
 from ._solver import kernel_inputs, run_kernel
-from .curves import CurveError, EquivalencePoint, _equivalence_points, _Family, ingredient_index
+from .curves import CurveError, EquivalencePoint, _equivalence_points, _Family, _peak_indices, ingredient_index
 from .errors import ChemError, ModelError
 from .library import normalise
 from .model import AcidBaseSystem, Ingredient, Mixture, Reagent, format_molar
@@ -70,9 +70,9 @@ SINGULAR = 1e-7
 NO_EFFECT = 1e-9
 #: Points of the fitted curve searched for equivalence points.
 EP_GRID = 401
-#: Gran regions as fractions of the rough end-point volume (common practice:
-#: the buffer region short of the end point, and clear excess beyond it; short of it, far enough on that a weak acid's own
-#: dissociation is small beside the base added).
+#: Gran regions as fractions of the way to the rough end point (common practice:
+#: the buffer region short of the end point, far enough on that a weak acid's own
+#: dissociation is small beside the base added, and clear excess beyond it).
 GRAN_BEFORE = (0.5, 0.95)
 GRAN_AFTER = 1.1
 
@@ -801,12 +801,16 @@ def gran_end_points(data: TitrationData, sample_volume_L: float, titrant: Reagen
     titrant mirrors these with the sign of pH reversed.  Of the two forms
     short of the end point the straighter one (higher r²) is reported.
 
-    The regions are taken from the measured curve alone: its steepest
-    interval gives a rough end point V*; points from 0.5 to 0.95 V* and
-    beyond 1.1 V* are used.  An electrode offset multiplies each function by
-    a constant and leaves the intercepts unchanged; the lines assume constant
-    activity coefficients.  Returns () when the titrant is not a strong acid
-    or base, or there are too few points in a region.
+    The regions come from the measured curve alone: the clear maxima of its
+    slope ΔpH/ΔV give rough end points; the last one, V*, is checked.  When an
+    earlier end point V1 precedes it (a polyprotic acid), the weak form uses
+    V − V1 in place of V and the region short of V* starts after V1.  Points
+    from 0.5 to 0.95 of the way from V1 (or 0) to V*, and beyond V* by a
+    tenth of that span, are used.  An electrode offset multiplies each
+    function by a constant and leaves the intercepts unchanged.  The lines
+    assume constant activity coefficients and, past the end point, that
+    nothing else takes up the excess titrant.  Returns () when the titrant
+    is not a strong acid or base, or there are too few points.
     """
     if titrant.systems or titrant.strong_acid_equivalents == 0 or len(data) < 4:
         return ()
@@ -815,23 +819,30 @@ def gran_end_points(data: TitrationData, sample_volume_L: float, titrant: Reagen
     ph = np.asarray(data.pH, dtype=float)
     v0 = sample_volume_L * 1000.0
     slope = np.abs(np.diff(ph) / np.diff(v))
-    i = int(np.argmax(slope))
-    v_star = 0.5 * (v[i] + v[i + 1])
+    mid = 0.5 * (v[1:] + v[:-1])
+    peaks = _peak_indices(slope) if slope.size >= 3 else []
+    if not peaks:
+        peaks = [int(np.argmax(slope))]
+    v_star = float(mid[peaks[-1]])
+    v_prev = float(mid[peaks[-2]]) if len(peaks) > 1 else 0.0
+    span = v_star - v_prev
     out = []
     ref = ph.mean()
-    before = (v >= GRAN_BEFORE[0] * v_star) & (v <= GRAN_BEFORE[1] * v_star) & (v > 0)
+    before = ((v >= v_prev + GRAN_BEFORE[0] * span) & (v <= v_prev + GRAN_BEFORE[1] * span) & (v > v_prev))
     expo = "-pH" if sign < 0 else "pH"
     if before.sum() >= 3:
         best = None
-        for name, g in ((f"V·10^{expo}", v * 10.0 ** (sign * (ph - ref))),
-                        (f"(V0+V)·10^{expo}", (v0 + v) * 10.0 ** (sign * (ph - ref)))):
+        forms = [(f"(V-V1)·10^{expo}" if v_prev else f"V·10^{expo}", (v - v_prev) * 10.0 ** (sign * (ph - ref)))]
+        if not v_prev:
+            forms.append((f"(V0+V)·10^{expo}", (v0 + v) * 10.0 ** (sign * (ph - ref))))
+        for name, g in forms:
             a, b, cov, r2 = _line(v[before], g[before])
             if b < 0 and (best is None or r2 > best[-1]):
                 best = (name, a, b, cov, r2)
         if best is not None:
             ve, sd = _intercept(*best[1:4])
             out.append(GranEstimate("before", best[0], ve, sd, int(before.sum()), best[4]))
-    after = v >= GRAN_AFTER * v_star
+    after = v >= v_star + (GRAN_AFTER - 1.0) * span
     if after.sum() >= 3:
         expo_a = "pH" if sign < 0 else "-pH"
         g = (v0 + v) * 10.0 ** (-sign * (ph - ref))
