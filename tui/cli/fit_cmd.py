@@ -117,7 +117,7 @@ def render_fit(result, sample_label: str) -> str:
     if not result.converged:
         out.append(f"fit: {result.message}")
     out.append("")
-    out.append("Model estimate; standard errors assume independent, equal pH errors at all points.")
+    out.append("Model estimate; standard errors assume independent, equal pH errors.")
     return "\n".join(out)
 
 
