@@ -38,11 +38,17 @@ def test_random_mixtures_converge_and_balance(mix):
     net = sum(s.charge * s.conc for s in eq.species)
     assert abs(net) <= 1e-12 * charge_scale(eq)
     # mass balance and fractions of every system
+    # (its own forms, plus the complexes holding it, counted by the units they hold)
     for state in eq.systems:
         name, total = state.name, state.total
         forms = eq.species_of(name)
-        assert math.fsum(s.fraction for s in forms) == pytest.approx(1.0, abs=1e-12)
-        assert math.fsum(s.conc for s in forms) == pytest.approx(total, rel=1e-12, abs=1e-300)
+        bound = [s for s in eq.species if s.system == "complex" and name in dict(s.holds)]
+        held = math.fsum(s.conc for s in forms) + math.fsum(dict(s.holds)[name] * s.conc for s in bound)
+        assert held == pytest.approx(total, rel=1e-10, abs=1e-300)
+        assert math.fsum(s.conc for s in forms) == pytest.approx(state.free, rel=1e-12, abs=1e-300)
+        assert math.fsum(f for _, f in state.distribution) == pytest.approx(1.0, abs=1e-10)
+        if not bound:
+            assert math.fsum(s.fraction for s in forms) == pytest.approx(1.0, abs=1e-12)
     # ionic strength is self-consistent
     i_calc = 0.5 * math.fsum(s.charge ** 2 * s.conc for s in eq.species)
     assert eq.ionic_strength == pytest.approx(i_calc, rel=1e-8, abs=1e-18)
