@@ -37,6 +37,7 @@ from textual.worker import Worker, WorkerState, get_current_worker
 import chem
 from chem.activity import MODELS
 from tui import storage
+from tui.fit_actions import FitActions
 from tui.messages import Plotted, Solved
 from tui.widgets.flask_list import FlaskList
 from tui.widgets.notice_bar import NoticeBar
@@ -117,6 +118,8 @@ COMMANDS: tuple[Command, ...] = (
             "dilution)", True),
     Command("v", "curve_setup", "Curve", "Set up the titration or sweep shown in the chart"),
     Command("b", "recipe", "Recipe", "Design a buffer recipe and load it into the flask"),
+    Command("f", "fit", "Fit", "Fit a measured titration (CSV); show its points on the titration plot"),
+    Command("i", "uncertainty", "± pH", "Show or hide the uncertainty: ± beside the pH, a band on the titration"),
     Command("a", "plot_scope", "All/one", "Plot all systems or only the selected ingredient's"),
     Command("w", "notices", "Notices", "Explain the current warnings and cautions"),
     Command("s,ctrl+s", "save", "Save", "Save the mixture as a preset", True),
@@ -136,7 +139,7 @@ def _bindings() -> list[Binding]:
             for c in COMMANDS if c.key]
 
 
-class ExplorerApp(App[int]):
+class ExplorerApp(FitActions, App[int]):
     """The live explorer of one mixture."""
 
     CSS_PATH = Path(__file__).with_name("app.tcss")
@@ -305,7 +308,7 @@ class ExplorerApp(App[int]):
     @property
     def kinds(self) -> tuple[PlotKind, ...]:
         """Every plot the chart can show, the curve kinds with their current settings."""
-        return PLOT_KINDS + _curves().curve_kinds(self._titration, self._sweep)
+        return self.with_overlay(PLOT_KINDS + _curves().curve_kinds(self._titration, self._sweep))
 
     def _kind(self) -> PlotKind:
         for kind in PLOT_KINDS:                         # the common case, without loading the curves
