@@ -12,10 +12,10 @@ from __future__ import annotations
 from ._solver import buffer_capacity_at, solve, tableau
 from .errors import ChemError, LibraryError, ModelError, PresetError, UnitError
 from .library import Library, load_library
-from .model import (AcidBaseSystem, Equilibrium, Ingredient, Ion, Mixture, Notice, Reagent, Species,
-                    format_molar)
+from .model import (AcidBaseSystem, Complex, Equilibrium, FixedGas, Gas, GasState, Ingredient, Ion, Mixture,
+                    Notice, Reagent, Solid, SolidState, Species, SystemState, format_molar)
 from .presets import demo_mixture, dumps_preset, load_preset, loads_preset, save_preset, shipped_presets
-from .units import parse_concentration, parse_volume
+from .units import parse_concentration, parse_pressure, parse_volume
 
 # Curves and recipes are loaded on first use: the recipe designer needs
 # scipy.optimize (about 0.3-0.7 s to import), which the explorer's start-up
@@ -41,10 +41,11 @@ def __getattr__(name: str):
 __version__ = "0.1.0"
 
 __all__ = [
-    "AcidBaseSystem", "ChemError", "Equilibrium", "Ingredient", "Ion", "Library", "LibraryError",
+    "AcidBaseSystem", "ChemError", "Complex", "Equilibrium", "FixedGas", "Gas", "GasState", "Ingredient", "Ion",
+    "Library", "LibraryError", "Solid", "SolidState", "SystemState",
     "Mixture", "ModelError", "Notice", "PresetError", "Reagent", "Species", "UnitError",
     "demo_mixture", "dumps_preset", "format_molar", "shipped_presets", "load_library", "load_preset", "loads_preset",
-    "parse_concentration", "parse_volume", "save_preset", "solve", "tableau", "__version__",
+    "parse_concentration", "parse_pressure", "parse_volume", "save_preset", "solve", "tableau", "__version__",
     "CapacityCurve", "Curve", "CurveError", "EquivalencePoint", "TitrationCurve", "buffer_capacity",
     "buffer_capacity_at", "dilution", "sweep", "titration",
     "Recipe", "RecipeError", "design_buffer", "design_metal_buffer", "suggest_systems",

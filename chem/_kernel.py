@@ -245,6 +245,7 @@ def _iterate(inp: Inputs, idx: np.ndarray, u: np.ndarray, ionic: np.ndarray, act
     omega = np.ones(p)
     last_di = np.zeros(p)
     gave_up = np.zeros(p, dtype=bool)
+    cap_i = _ionic_cap(inp, idx)
     for its in range(1, max_iter + 1):
         w = idx[work]
         uw, iw, aw = u[work], ionic[work], active[work]
@@ -282,30 +283,35 @@ def _iterate(inp: Inputs, idx: np.ndarray, u: np.ndarray, ionic: np.ndarray, act
         u[work] = u_new
         lam_e[work] = le
         lam_s[work] = ls
-        # ionic strength from the new species (lagged activity coefficients)
+        # ionic strength from the new species (lagged activity coefficients), once the balances are
+        # within a per cent: far from the solution the species are no guide to it
         if not freeze_ionic and not inp.model.ideal:
             c_new = concentrations(inp, w, u_new, lng)
+            scale_j = c_new @ np.abs(inp.nu) + np.abs(inp.totals[w])
+            near = np.max(np.abs(c_new @ inp.nu - inp.totals[w] + (le @ inp.eq_rows if le.shape[1] else 0.0)
+                                 + (ls @ inp.sol_a if ls.shape[1] else 0.0))
+                          / np.maximum(scale_j, 1e-300), axis=1) < 1e-2
             i_new = ionic_of(inp, w, c_new, le)
             if fixed_i is not None:
                 i_new = fixed_i[w]
-            i_new = np.where(np.isfinite(i_new), i_new, iw)
-            delta = i_new - iw
+            i_new = np.where(np.isfinite(i_new), np.minimum(i_new, cap_i[work]), iw)
+            delta = np.where(near, i_new - iw, 0.0)
             flip = delta * last_di[work] < 0
             om = np.where(flip, 0.5 * omega[work], np.minimum(1.0, omega[work] * 1.25))
             omega[work] = om
-            last_di[work] = delta
+            last_di[work] = np.where(near, delta, last_di[work])
             i_next = iw + om * delta
-            di = np.abs(delta)
+            di = np.where(near, np.abs(delta), np.inf)
             ionic[work] = i_next
             gave_up[work] = om < 1.0 / 256
         else:
             di = np.zeros(work.size)
         step = alpha * big
-        done = (step < STEP_TOL) & (alpha == 1.0) & (di <= 1e-12 * np.maximum(ionic[work], 1e-300) + 1e-18)
+        done = (step < STEP_TOL) & (alpha == 1.0) & (di <= 2e-14 * np.maximum(ionic[work], 1e-300) + 1e-18)
         # at the working set's optimum: release an active solid with a negative amount
         if nq:
-            neg = done & np.any(aw & (ls < -1e-14 * np.maximum(np.abs(inp.totals[w]).max(axis=1), 1e-300)),
-                                axis=1)
+            floor = -1e-14 * np.maximum(np.abs(inp.totals[w]).max(axis=1), 1e-300)
+            neg = done & np.any(aw & (ls < floor[:, None]), axis=1)
             if neg.any():
                 rows = np.nonzero(neg)[0]
                 worst = np.argmin(np.where(aw[rows], ls[rows], np.inf), axis=1)
@@ -377,7 +383,6 @@ def _nested(inp: Inputs, idx, u, ionic, active, budget: int):
         lo, r_lo = np.where(up, ionic, lo), np.where(up, r, r_lo)
         hi, r_hi = np.where(down, ionic, hi), np.where(down, r, r_hi)
         last = np.where(up, 1.0, np.where(down, -1.0, last))
-        cap = np.where(up & (ionic >= cap), 10.0 * cap, cap)
         secant = (lo * r_hi - hi * r_lo) / (r_hi - r_lo)
         bracketed = np.isfinite(hi)
         fixed = np.minimum(new_i, cap)
@@ -397,9 +402,12 @@ def _ionic_cap(inp: Inputs, idx) -> np.ndarray:
     """
     nu = inp.nu
     tot = np.abs(inp.totals[idx])                                  # (P, nc)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        lim = np.where(nu[None, :, 1:] > 0, tot[:, None, 1:] / np.where(nu[:, 1:] > 0, nu[:, 1:], 1.0)[None],
-                       np.inf).min(axis=2)                          # (P, ns)
+    if nu.shape[1] > 1:
+        with np.errstate(divide="ignore", invalid="ignore"):
+            lim = np.where(nu[None, :, 1:] > 0, tot[:, None, 1:] / np.where(nu[:, 1:] > 0, nu[:, 1:], 1.0)[None],
+                           np.inf).min(axis=2)                      # (P, ns)
+    else:
+        lim = np.zeros((tot.shape[0], nu.shape[0]))
     lim = np.where(np.isfinite(lim), lim, 0.0)
     lim[:, :2] = 0.0
     hmax = float(np.abs(nu[:, 0]).max(initial=1.0))
@@ -562,8 +570,14 @@ def starting_values(inp: Inputs, lay: Layout, *, h_fixed: np.ndarray | None = No
                 u[:, lay.ion_cols] = np.log(tot[:, lay.ion_cols]) + lng[:, lay.ion_rows]
             if inp.fixed_ionic is not None or inp.model.ideal:
                 break
+            # the ionic strength of these species alone (complexes are not yet in balance)
             c = concentrations(inp, idx, u, lng)
-            i0 = ionic_of(inp, idx, c)
+            plain = np.zeros(inp.nu.shape[0], dtype=bool)
+            plain[:2] = True
+            plain[lay.rows[lay.mask]] = True
+            if lay.ion_rows.size:
+                plain[lay.ion_rows] = True
+            i0 = 0.5 * (c[:, plain] @ inp.z2[plain]) + inp.inert_i
         # complexes: damped log-ratio updates of each non-H component
         nu = inp.nu
         comps = np.ones(nu.shape[1], dtype=bool)
@@ -579,6 +593,11 @@ def starting_values(inp: Inputs, lay: Layout, *, h_fixed: np.ndarray | None = No
                 step = np.log(tot / np.maximum(m, 1e-300)) / nbar
                 step = np.clip(np.where(np.isfinite(step), step, 0.0), -STEP_MAX, STEP_MAX)
                 u[:, comps] += step[:, comps]
+            if inp.fixed_ionic is None and not inp.model.ideal:
+                c = concentrations(inp, idx, u, lng)
+                i_all = ionic_of(inp, idx, c)
+                ok = np.isfinite(i_all) & (i_all > 0)
+                i0 = np.where(ok, np.minimum(i_all, _ionic_cap(inp, idx)), i0)
         del zc
     return u, i0
 
