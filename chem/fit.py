@@ -43,7 +43,7 @@ from typing import Sequence
 import numpy as np
 
 from . import _kernel as K
-from ._sens import DEFAULT_PKA_SD, columns_rhs, constant_derivatives, solve_columns
+from ._sens import columns_rhs, constant_derivatives, shift_inputs, solve_columns
 from ._solver import kernel_inputs, run_kernel
 from .curves import CurveError, EquivalencePoint, _equivalence_points, _Family, _peak_indices, ingredient_index
 from .errors import ChemError, ModelError
@@ -492,7 +492,6 @@ class _Model:
         inp.lnk, inp.sol_b, inp.eq_rhs = lnk, sol_b, eq_rhs
         if self.pka_cols:
             delta = np.array([x[k] - self.x0[k] for k, p in enumerate(self.params) if p.kind == "pKa"])
-            from ._sens import shift_inputs
             shift_inputs(inp, self.st, self.der, self.pka_cols, delta)
         return inp
 
@@ -927,7 +926,3 @@ def _fitted_mixture(mixture: Mixture, model: _Model, values: Sequence[FittedValu
     notes = (mixture.notes + "\n" + note) if mixture.notes else note
     title = f"{mixture.title} (fitted)" if mixture.title else "fitted sample"
     return replace(mix, notes=notes, title=title), ""
-
-
-#: Default standard uncertainty used for pKa without a stated one (re-exported for the CLI's notes).
-PKA_SD_DEFAULT = DEFAULT_PKA_SD

@@ -34,7 +34,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from . import _kernel as K
-from ._sens import (DEFAULT_LOG_K_SD, DEFAULT_PKA_SD, Constant, constant_derivatives, constant_rhs,
+from ._sens import (DEFAULT_LOG_K_SD, DEFAULT_PKA_SD, constant_derivatives, constant_rhs,
                     log_conc_derivatives, shift_inputs, solve_columns)
 from ._solver import kernel_inputs, run_kernel
 from .errors import ChemError
@@ -198,7 +198,6 @@ def propagate(eq: Equilibrium, *, method: str = "first-order", samples: int = DE
     inp = kernel_inputs(prob)
     res = _result_of(eq, inp)
     cols = list(range(len(der.constants)))
-    nc = st.n_components
     rhs = constant_rhs(inp, res, st, der, cols)
     names: list[str] = []
     if amount_rel_sd is not None:

@@ -168,6 +168,19 @@ class TestRecovery:
         assert res.mixture.ingredients[0].reagent.name == "acetic acid (fitted)"
         assert res.mixture.ingredients[0].reagent.custom
 
+    def test_a_fitted_library_pka_held_by_two_ingredients_is_reported_not_written(self, naoh):
+        """A preset can carry a fitted pKa only as a custom reagent: one ingredient per system."""
+        lib = load_library()
+        buffer = Mixture((Ingredient(lib.reagent("acetic acid"), 0.010), Ingredient(lib.reagent("sodium acetate"),
+                                                                                   0.005)))
+        v = np.linspace(0.5, 3.0, 20)
+        curve = chem.titration(buffer, naoh, 0.05, 0.01, 0.003, points=101)
+        res = fit_titration(buffer, TitrationData(v, np.interp(v, curve.x, curve.pH)), naoh, 0.05, 0.01,
+                            ["pKa:acetate:1"])
+        assert res.value("pKa:acetate:1").value == pytest.approx(lib.system("acetate").pka[0], abs=1e-4)
+        assert res.mixture is None
+        assert any("2 ingredients hold acetate" in n for n in res.notes)
+
     def test_temperature_column_sets_each_point(self, truth, naoh):
         sample = acid_sample()
         plain = fit_titration(sample, TitrationData(VOLUMES, truth), naoh, C_BASE, 0.1, ["amount:acid Y"])
