@@ -25,6 +25,7 @@ class FitActions:
     _fit_request: FitRequest | None = None
     _overlay_data: Overlay | None = None
     show_uncertainty: bool = False
+    _sd_shown: bool = False
 
     def _on_mount(self) -> None:
         self.watch(self, "result", self._result_for_uncertainty, init=False)
@@ -51,14 +52,12 @@ class FitActions:
     def _fit_closed(self, outcome: FitOutcome | None) -> None:
         if outcome is None:
             return
-        from pathlib import Path
-
         from tui.widgets.fit_plot import Overlay
 
         self._fit_request = outcome.request
         result = outcome.result
         offset = result.offset if result is not None and outcome.action == "load" else 0.0
-        self._overlay_data = Overlay(outcome.settings, outcome.data, offset, Path(outcome.request.path).name,
+        self._overlay_data = Overlay(outcome.settings, outcome.data, offset, outcome.data.label,
                                      rms=result.rms_pH if result is not None else None)
         self._titration = outcome.settings
         if outcome.action == "load" and result is not None and result.mixture is not None:
@@ -79,9 +78,12 @@ class FitActions:
                     if self.show_uncertainty else "uncertainty hidden", timeout=3)
 
     def _result_for_uncertainty(self, result) -> None:
+        if not self.show_uncertainty and not self._sd_shown:
+            return                                      # the usual edit: nothing to do
         from tui.widgets.readout import Readout
 
         readout = self.query_one(Readout)
+        self._sd_shown = self.show_uncertainty
         if not self.show_uncertainty or result is None or not result.converged:
             readout.ph_sd = None
             return
