@@ -11,7 +11,7 @@ import math
 import sys
 from pathlib import Path
 
-HELP = "fit a measured titration (amounts, pKa, titrant, electrode offset) with standard errors"
+HELP = "fit a measured titration (amounts, pKa, titrant, offset) with standard errors"
 
 DESCRIPTION = """\
 Fit a measured titration through the full equilibrium model: the sample in
