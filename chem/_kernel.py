@@ -36,7 +36,7 @@ titration or sweep, and ``solve`` is a batch of one.
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 
@@ -67,6 +67,8 @@ class Inputs:
     sol_b: np.ndarray       # (P, nq)
     allowed: np.ndarray     # (P, nq) bool: which solids may form
     fixed_ionic: np.ndarray | None = None   # (P,) hold I at these values (no self-consistency)
+    z_comp: np.ndarray | None = None        # (nc,) charge of each component; with inert_q, the charge balance
+    inert_q: np.ndarray | None = None       # (P,) net charge of the inert ions
     counter_row: int | None = None
     """An equality row whose multiplier is strong acid/base added with a monovalent counter-ion (pH-stat)."""
 
@@ -155,10 +157,21 @@ def _kkt_step(inp: Inputs, idx, u, c, active):
     diag = np.einsum("pjj->pj", hess)
     s = 1.0 / np.sqrt(np.maximum(diag, 1e-300))
     n = nc + ne + nq
+    charge = inp.z_comp is not None and nc > 1
+    if charge:
+        # The H+ row is replaced by the charge balance (row H + Σ_j z_j·row j, the same equations since
+        # every reagent is neutral), computed from the species' charges directly: no cancellation of
+        # large proton totals, so the charge balance closes to round-off of the charges it carries.
+        zc = inp.z_comp
+        q = c @ (nu @ zc) + inp.inert_q[idx]
+        mix_row = (s[:, :1] / s[:, 1:]) * zc[None, 1:]            # (p, nc-1)
     if n == nc:
         hs = hess * s[:, :, None] * s[:, None, :]
         hs[:, np.arange(nc), np.arange(nc)] += 1e-14
         rhs = -g * s
+        if charge:
+            hs[:, 0, :] += np.einsum("pj,pjk->pk", mix_row, hs[:, 1:, :])
+            rhs[:, 0] = -s[:, 0] * q
         try:
             ds = np.linalg.solve(hs, rhs[:, :, None])[:, :, 0]
         except np.linalg.LinAlgError:
@@ -189,6 +202,9 @@ def _kkt_step(inp: Inputs, idx, u, c, active):
         rhs[:, nc + ne:] = np.where(active, (inp.sol_b[idx] - u @ inp.sol_a.T) * qn, 0.0)
     else:
         qn = np.zeros((p, 0))
+    if charge:
+        k[:, 0, :] += np.einsum("pj,pjk->pk", mix_row, k[:, 1:nc, :])
+        rhs[:, 0] = -s[:, 0] * q
     try:
         sol = np.linalg.solve(k, rhs[:, :, None])[:, :, 0]
     except np.linalg.LinAlgError:
@@ -229,6 +245,16 @@ def _max_step(inp: Inputs, idx, u, d, active):
 # the iteration
 # --------------------------------------------------------------------------
 
+def _subset(inp: Inputs, w: np.ndarray) -> Inputs:
+    """The inputs of the points ``w`` only (one copy per change of the working set)."""
+    if w.size == inp.points and (w.size == 0 or (w[0] == 0 and w[-1] == w.size - 1)):
+        return inp
+    return replace(inp, lnk=inp.lnk[w], totals=inp.totals[w], a=inp.a[w], b=inp.b[w], inert_i=inp.inert_i[w],
+                   eq_rhs=inp.eq_rhs[w], sol_b=inp.sol_b[w], allowed=inp.allowed[w],
+                   fixed_ionic=None if inp.fixed_ionic is None else inp.fixed_ionic[w],
+                   inert_q=None if inp.inert_q is None else inp.inert_q[w])
+
+
 def _iterate(inp: Inputs, idx: np.ndarray, u: np.ndarray, ionic: np.ndarray, active: np.ndarray,
              *, freeze_ionic: bool, max_iter: int):
     """Newton iterations for the points ``idx``; returns (u, ionic, active, lam_e, lam_s, converged, its)."""
@@ -240,29 +266,41 @@ def _iterate(inp: Inputs, idx: np.ndarray, u: np.ndarray, ionic: np.ndarray, act
     converged = np.zeros(p, dtype=bool)
     work = np.arange(p)                     # positions still iterating
     its = 0
-    fixed_i = inp.fixed_ionic
+    update_i = not freeze_ionic and not inp.model.ideal
     # damping of the ionic-strength update: halved each time the update changes sign
     omega = np.ones(p)
     last_di = np.zeros(p)
     gave_up = np.zeros(p, dtype=bool)
     cap_i = _ionic_cap(inp, idx)
+    base = _subset(inp, idx)
+    sub, sub_work = base, work
+    local = np.arange(p)
+    abs_nu = np.abs(inp.nu)
     for its in range(1, max_iter + 1):
-        w = idx[work]
+        if sub_work is not work:
+            sub, sub_work = _subset(base, work), work
+            local = np.arange(work.size)
         uw, iw, aw = u[work], ionic[work], active[work]
-        lng = ln_gamma(inp, w, iw)
-        f0, c = _objective(inp, w, uw, lng)
-        d, le, ls, g = _kkt_step(inp, w, uw, c, aw)
+        tot = sub.totals
+        lng = ln_gamma(sub, local, iw)
+        c = concentrations(sub, local, uw, lng)
+        f0 = c.sum(axis=1) - (tot * uw).sum(axis=1)
+        d, le, ls, g = _kkt_step(sub, local, uw, c, aw)
         # step length: cap, blocking solids, Armijo backtracking on f
-        big = np.max(np.abs(d), axis=1)
+        big = np.abs(d).max(axis=1)
         cap = np.minimum(1.0, STEP_MAX / np.maximum(big, 1e-300))
-        amax, block = _max_step(inp, w, uw, d, aw)
-        alpha = np.minimum(cap, amax)
-        slope = np.einsum("pj,pj->p", g, d)
-        scale = c.sum(axis=1) + np.abs(np.einsum("pj,pj->p", inp.totals[w], uw)) + 1e-300
+        if nq:
+            amax, block = _max_step(sub, local, uw, d, aw)
+            alpha = np.minimum(cap, amax)
+        else:
+            alpha = cap
+        slope = (g * d).sum(axis=1)
+        scale = c.sum(axis=1) + np.abs((tot * uw).sum(axis=1)) + 1e-300
         trust = (slope < 0) & (np.abs(slope) > 1e-13 * scale)
         u_new = uw + alpha[:, None] * d
+        c_new = concentrations(sub, local, u_new, lng)
         if trust.any():
-            f1, _ = _objective(inp, w, u_new, lng)
+            f1 = c_new.sum(axis=1) - (tot * u_new).sum(axis=1)
             bad = trust & ~(f1 <= f0 + 1e-4 * alpha * slope)
             for _ in range(50):
                 if not bad.any():
@@ -270,56 +308,66 @@ def _iterate(inp: Inputs, idx: np.ndarray, u: np.ndarray, ionic: np.ndarray, act
                 alpha = np.where(bad, 0.5 * alpha, alpha)
                 b_idx = np.nonzero(bad)[0]
                 u_try = uw[b_idx] + alpha[b_idx, None] * d[b_idx]
-                f1b, _ = _objective(inp, w[b_idx], u_try, lng[b_idx])
+                c_try = concentrations(sub, local[b_idx], u_try, lng[b_idx])
+                f1b = c_try.sum(axis=1) - (tot[b_idx] * u_try).sum(axis=1)
                 ok = f1b <= f0[b_idx] + 1e-4 * alpha[b_idx] * slope[b_idx]
                 u_new[b_idx] = u_try
+                c_new[b_idx] = c_try
                 bad[b_idx[ok]] = False
                 if np.all(alpha[b_idx] * big[b_idx] < 1e-14):
                     bad[b_idx] = False
-        blocked = (block >= 0) & (alpha >= amax * (1 - 1e-12)) & (amax < cap)
-        if blocked.any():
-            rows = np.nonzero(blocked)[0]
-            aw[rows, block[rows]] = True
+        if nq:
+            blocked = (block >= 0) & (alpha >= amax * (1 - 1e-12)) & (amax < cap)
+            if blocked.any():
+                rows = np.nonzero(blocked)[0]
+                aw[rows, block[rows]] = True
         u[work] = u_new
-        lam_e[work] = le
-        lam_s[work] = ls
+        if ne:
+            lam_e[work] = le
+        if nq:
+            lam_s[work] = ls
         # ionic strength from the new species (lagged activity coefficients), once the balances are
         # within a per cent: far from the solution the species are no guide to it
-        if not freeze_ionic and not inp.model.ideal:
-            c_new = concentrations(inp, w, u_new, lng)
-            scale_j = c_new @ np.abs(inp.nu) + np.abs(inp.totals[w])
-            near = np.max(np.abs(c_new @ inp.nu - inp.totals[w] + (le @ inp.eq_rows if le.shape[1] else 0.0)
-                                 + (ls @ inp.sol_a if ls.shape[1] else 0.0))
-                          / np.maximum(scale_j, 1e-300), axis=1) < 1e-2
-            i_new = ionic_of(inp, w, c_new, le)
-            if fixed_i is not None:
-                i_new = fixed_i[w]
+        if update_i:
+            r = g
+            if ne:
+                r = r + le @ inp.eq_rows
+            if nq:
+                r = r + ls @ inp.sol_a
+            near = (np.abs(r) / np.maximum(c @ abs_nu + np.abs(tot), 1e-300)).max(axis=1) < 1e-2
+            i_new = ionic_of(sub, local, c_new, le)
+            if sub.fixed_ionic is not None:
+                i_new = sub.fixed_ionic
             i_new = np.where(np.isfinite(i_new), np.minimum(i_new, cap_i[work]), iw)
             delta = np.where(near, i_new - iw, 0.0)
             flip = delta * last_di[work] < 0
             om = np.where(flip, 0.5 * omega[work], np.minimum(1.0, omega[work] * 1.25))
             omega[work] = om
             last_di[work] = np.where(near, delta, last_di[work])
-            i_next = iw + om * delta
-            di = np.where(near, np.abs(delta), np.inf)
-            ionic[work] = i_next
+            ionic[work] = iw + om * delta
             gave_up[work] = om < 1.0 / 256
+            di = np.where(near, np.abs(delta), np.inf)
+            done = (alpha * big < STEP_TOL) & (alpha == 1.0) & (di <= 2e-14 * np.maximum(ionic[work], 1e-300)
+                                                                 + 1e-18)
         else:
-            di = np.zeros(work.size)
-        step = alpha * big
-        done = (step < STEP_TOL) & (alpha == 1.0) & (di <= 2e-14 * np.maximum(ionic[work], 1e-300) + 1e-18)
+            done = (alpha * big < STEP_TOL) & (alpha == 1.0)
         # at the working set's optimum: release an active solid with a negative amount
         if nq:
-            floor = -1e-14 * np.maximum(np.abs(inp.totals[w]).max(axis=1), 1e-300)
+            floor = -1e-14 * np.maximum(np.abs(tot).max(axis=1), 1e-300)
             neg = done & np.any(aw & (ls < floor[:, None]), axis=1)
             if neg.any():
                 rows = np.nonzero(neg)[0]
                 worst = np.argmin(np.where(aw[rows], ls[rows], np.inf), axis=1)
                 aw[rows, worst] = False
                 done &= ~neg
-        active[work] = aw
+            active[work] = aw
+        if done.all() and not gave_up[work].any():
+            converged[work] = True
+            break
         converged[work[done]] = True
-        work = work[~done & ~gave_up[work]]
+        keep = ~done & ~gave_up[work]
+        if not keep.all():
+            work = work[keep]
         if work.size == 0:
             break
     return u, ionic, active, lam_e, lam_s, converged, its
@@ -336,6 +384,12 @@ def solve(inp: Inputs, u0: np.ndarray, i0: np.ndarray, *, max_iter: int = 200,
         ionic = np.array(inp.fixed_ionic, dtype=float, copy=True)
     nq = inp.sol_a.shape[0]
     active = np.zeros((p, nq), dtype=bool) if active0 is None else np.array(active0, dtype=bool)
+    full = inp
+    keep = inp.allowed.any(axis=0) if nq else np.zeros(0, dtype=bool)
+    if nq and not keep.all():
+        # only solids that may form enter the iteration (the others are reported by their SI alone)
+        inp = replace(inp, sol_a=inp.sol_a[keep], sol_b=inp.sol_b[:, keep], allowed=inp.allowed[:, keep])
+        active = active[:, keep]
     u = _make_feasible(inp, idx, u)
     freeze = inp.fixed_ionic is not None
     with np.errstate(over="ignore", under="ignore", invalid="ignore", divide="ignore"):
@@ -351,7 +405,12 @@ def solve(inp: Inputs, u0: np.ndarray, i0: np.ndarray, *, max_iter: int = 200,
             lam_e[rest], lam_s[rest] = le_r, ls_r
             conv[rest] = c_r
             iterations += its2
-        return _final(inp, idx, u, ionic, active, lam_e, lam_s, conv, iterations)
+        res = _final(inp, idx, u, ionic, active, lam_e, lam_s, conv, iterations)
+    if inp is not full:
+        amounts = np.zeros((p, nq))
+        amounts[:, keep] = res.amounts
+        res.amounts = amounts
+    return res
 
 
 def _nested(inp: Inputs, idx, u, ionic, active, budget: int):
@@ -556,9 +615,10 @@ def starting_values(inp: Inputs, lay: Layout, *, h_fixed: np.ndarray | None = No
         if inp.fixed_ionic is not None:
             i0 = np.array(inp.fixed_ionic, dtype=float)
         u = np.zeros((p, inp.nu.shape[1]))
+        x = None
         for _ in range(2):
             lng = ln_gamma(inp, idx, i0)
-            x = _acid_base_x(inp, lay, lng, h_fixed)
+            x = _acid_base_x(inp, lay, lng, h_fixed, x)
             u[:, 0] = x
             if lay.rows.size:
                 w = (inp.lnk[:, lay.rows] - lng[:, lay.rows] + lay.j[None] * x[:, None, None])
@@ -602,8 +662,9 @@ def starting_values(inp: Inputs, lay: Layout, *, h_fixed: np.ndarray | None = No
     return u, i0
 
 
-def _acid_base_x(inp: Inputs, lay: Layout, lng: np.ndarray, h_fixed) -> np.ndarray:
-    """u_H of the acid–base equilibrium at fixed γ (complexes left out): a bracketed Newton solve."""
+def _acid_base_x(inp: Inputs, lay: Layout, lng: np.ndarray, h_fixed, x0=None) -> np.ndarray:
+    """u_H of the acid–base equilibrium at fixed γ (complexes left out): Newton with limited steps
+    kept inside a bracket (the proton balance rises strictly with u_H)."""
     p = inp.points
     if h_fixed is not None:
         return np.asarray(h_fixed, dtype=float) * np.ones(p)
@@ -613,32 +674,35 @@ def _acid_base_x(inp: Inputs, lay: Layout, lng: np.ndarray, h_fixed) -> np.ndarr
     if lay.rows.size:
         w0 = np.where(lay.mask[None], inp.lnk[:, lay.rows] - lng[:, lay.rows], -np.inf)
         tot = inp.totals[:, lay.comp]
+        jj = lay.j[None]
     lo = np.full(p, -60.0)
     hi = np.full(p, 25.0)
-    x = np.full(p, -7.0 * _LN10)
-    for _ in range(100):
+    x = np.full(p, -7.0 * _LN10) if x0 is None else np.array(x0, dtype=float)
+    for _ in range(80):
         hc = np.exp(x - lng_h)
         ohc = np.exp(lnk_oh - x)
         f = hc - ohc - t_h
         df = hc + ohc
         if lay.rows.size:
-            w = w0 + lay.j[None] * x[:, None, None]
-            w = w - w.max(axis=2, keepdims=True)
+            w = w0 + jj * x[:, None, None]
+            w -= w.max(axis=2, keepdims=True)
             e = np.exp(w)
             s0 = e.sum(axis=2)
-            m1 = (e * lay.j).sum(axis=2) / s0
-            m2 = (e * lay.j * lay.j).sum(axis=2) / s0
+            ej = e * jj
+            m1 = ej.sum(axis=2) / s0
+            m2 = (ej * jj).sum(axis=2) / s0
             f = f + (tot * m1).sum(axis=1)
             df = df + (tot * np.maximum(m2 - m1 * m1, 0.0)).sum(axis=1)
         lo = np.where(f < 0, x, lo)
         hi = np.where(f > 0, x, hi)
-        newton = x - f / df
-        bad = ~np.isfinite(newton) | (newton <= lo) | (newton >= hi)
-        x_new = np.where(bad, 0.5 * (lo + hi), newton)
-        if np.all(np.abs(x_new - x) < 1e-10) or np.all(f == 0):
-            x = x_new
-            break
+        step = np.clip(-f / df, -3.0, 3.0)
+        x_new = x + step
+        bad = ~np.isfinite(x_new) | (x_new <= lo) | (x_new >= hi)
+        x_new = np.where(bad, 0.5 * (lo + hi), x_new)
+        done = np.all(np.abs(x_new - x) < 1e-7)
         x = x_new
+        if done:
+            break
     return x
 
 

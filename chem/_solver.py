@@ -80,7 +80,7 @@ def layout_of(st: Structure) -> K.Layout:
 
 
 def kernel_inputs(prob: Problem, *, t_c=None, totals=None, inert_i=None, pressures=None,
-                  fixed_ph=None, fixed_ionic=None, allowed=None, extra_solids=None) -> K.Inputs:
+                  fixed_ph=None, fixed_ionic=None, allowed=None, inert_q=None) -> K.Inputs:
     """The kernel's inputs for ``prob`` at P points.
 
     Every keyword may give per-point values (leading axis P): temperatures,
@@ -97,11 +97,11 @@ def kernel_inputs(prob: Problem, *, t_c=None, totals=None, inert_i=None, pressur
     t = np.broadcast_to(t, (p,))
     tot = np.broadcast_to(tot, (p, tot.shape[1]))
     if t.size and np.all(t == t[0]):
-        lk = np.broadcast_to(st.logk.at(t[0]), (p, st.n_species))
-        pkw, a0, b0 = water_constants(float(t[0]))
+        t_single = float(t[0])
+        lk = np.broadcast_to(st.log_k_at(t_single), (p, st.n_species))
+        pkw, a0, b0 = water_constants(t_single)
         a = np.full(p, a0)
         b = np.full(p, b0)
-        t_single = float(t[0])
     else:
         lk = st.logk.at(t)
         a = np.asarray(water.debye_huckel_a(t), dtype=float)
@@ -128,16 +128,27 @@ def kernel_inputs(prob: Problem, *, t_c=None, totals=None, inert_i=None, pressur
     eq_rows = np.array(rows, dtype=float).reshape(len(rows), st.n_components)
     eq_rhs = np.column_stack(rhs) if rhs else np.zeros((p, 0))
     sol_a = st.sol_a
-    sol_b = LN10 * np.broadcast_to(st.sol_logk.at(t_single if t_single is not None else t), (p, sol_a.shape[0]))
+    if t_single is not None:
+        cache = st.cache.setdefault("sol_b", {})
+        row = cache.get(t_single)
+        if row is None:
+            row = cache[t_single] = LN10 * st.sol_logk.at(t_single)
+        sol_b = np.broadcast_to(row, (p, sol_a.shape[0]))
+    else:
+        sol_b = LN10 * st.sol_logk.at(t)
     if allowed is None:
         allowed = st.sol_allowed
     allowed = np.broadcast_to(np.asarray(allowed, dtype=bool), (p, sol_a.shape[0]))
     ii = np.broadcast_to(np.asarray(prob.inert_i if inert_i is None else inert_i, dtype=float), (p,))
     fi = None if fixed_ionic is None else np.broadcast_to(np.asarray(fixed_ionic, dtype=float), (p,)).copy()
+    iq = None
+    if fixed_ph is None:     # a pH-stat's added acid or base carries charge the totals do not show
+        iq = np.broadcast_to(np.asarray(prob.inert_q if inert_q is None else inert_q, dtype=float), (p,)).copy()
     return K.Inputs(nu=st.nu, z2=st.z2, size=st.size, model=st.model, lnk=np.ascontiguousarray(lnk),
                     totals=np.ascontiguousarray(tot), a=a, b=b, inert_i=np.array(ii), eq_rows=eq_rows,
                     eq_rhs=eq_rhs, sol_a=sol_a, sol_b=np.ascontiguousarray(sol_b), allowed=allowed,
-                    fixed_ionic=fi, counter_row=counter)
+                    fixed_ionic=fi, counter_row=counter, z_comp=st.z_comp if iq is not None else None,
+                    inert_q=iq)
 
 
 def run_kernel(prob: Problem, inp: K.Inputs, *, u0=None, i0=None, max_iter: int = 200,
@@ -487,13 +498,19 @@ def solve(mixture: Mixture, *, tol: float = 1e-13, max_iter: int = 200) -> Equil
     if st.fast:
         lnk = LN10 * prob.log_k()
         data = fast_data(prob, lnk)
-        x, ionic, resid, scale, converged, iterations = fast_solve(
-            data, prob.inert_q, prob.inert_i, 10.0 ** -pkw, a, b, st.model, tol=tol, max_iter=max_iter)
-        u, lng, c = _state_from_x(prob, lnk, x, ionic, a, b)
-        nq = len(st.solids)
-        state = _State(u, ionic, lng, c, np.zeros(nq), np.zeros(0), converged, iterations,
-                       abs(resid) / scale if scale > 0 else 0.0)
-        return assemble(prob, state)
+        try:
+            x, ionic, resid, scale, converged, iterations = fast_solve(
+                data, prob.inert_q, prob.inert_i, 10.0 ** -pkw, a, b, st.model, tol=tol, max_iter=max_iter)
+        except OverflowError:          # activity coefficients beyond floating point: the general kernel
+            converged, iterations = False, 0
+        if converged or max_iter < 50:
+            u, lng, c = _state_from_x(prob, lnk, x, ionic, a, b)
+            nq = len(st.solids)
+            state = _State(u, ionic, lng, c, np.zeros(nq), np.zeros(0), converged, iterations,
+                           abs(resid) / scale if scale > 0 else 0.0)
+            return assemble(prob, state)
+        # the fast path did not settle (an activity model far outside its range): the general kernel,
+        # whose bracketed ionic-strength search cannot cycle
     inp = kernel_inputs(prob)
     res = run_kernel(prob, inp, max_iter=max_iter)
     state = _State(res.u[0], float(res.ionic[0]), res.lng[0], res.conc[0], res.amounts[0], res.eq_mult[0],

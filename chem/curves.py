@@ -222,8 +222,9 @@ class _Family:
         k = len(parts)
         self.tot = np.zeros((k, st.n_components))
         self.inert_i = np.zeros(k)
+        self.inert_q = np.zeros(k)
         for n, group in enumerate(parts):
-            self.tot[n], _, self.inert_i[n] = component_totals(st, group)
+            self.tot[n], self.inert_q[n], self.inert_i[n] = component_totals(st, group)
         rows = [r for r, info in enumerate(st.species) if info.kind != "strong"]
         self.rows = np.array(rows, dtype=int)
         names = [st.species[r].name for r in rows]
@@ -251,6 +252,7 @@ class _Family:
         """Solve the points; ``start`` = (u, I) guesses.  Returns (inputs, result, zero mask)."""
         tot, zero = self.totals(weights)
         inp = kernel_inputs(self.prob, t_c=t_c, totals=tot, inert_i=weights @ self.inert_i,
+                            inert_q=weights @ self.inert_q,
                             pressures=pressures, fixed_ph=fixed_ph, fixed_ionic=fixed_ionic, allowed=allowed)
         u0, i0 = (None, None) if start is None else start
         res = run_kernel(self.prob, inp, u0=u0, i0=i0, fixed_ph=fixed_ph)

@@ -149,6 +149,8 @@ class Structure:
     """Pure acid–base: no complexes, no solids that may form, no fixed gases."""
     supplied: np.ndarray
     """Components a fixed gas can supply (never "really zero")."""
+    z_comp: np.ndarray
+    """Charge of each component (H+ first)."""
     alk_level: np.ndarray
     """Per species: acceptors minus donors relative to the pK 4.5 reference level (alkalinity)."""
     cache: dict = field(default_factory=dict, compare=False, repr=False)
@@ -539,7 +541,13 @@ def _structure(key: _Key) -> Structure:
         sys_rows=tuple(sys_rows), ions=ions, complexes=key.complexes, solids=key.solids, sol_a=sol_a_arr,
         sol_logk=_logk(sol_rows), sol_ksp=_logk(ksp_rows), sol_allowed=allowed, gases=key.gases,
         gas_row=tuple(gas_row), gas_kh=_logk(kh_rows), fixed=tuple(fixed), model=mdl, fast=fast,
-        alk_level=alk, supplied=supplied)
+        alk_level=alk, supplied=supplied, z_comp=_read_only(np.array(
+            [1.0] + [float(sy.base_charge) for sy in systems] + [float(i.charge) for i in ions])))
+
+
+def _read_only(a: np.ndarray) -> np.ndarray:
+    a.setflags(write=False)
+    return a
 
 
 def _conditional_shift_reaction(item, mdl: ActivityModel, charge, own_size, infos, by_name, sizes) -> float:

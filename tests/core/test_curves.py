@@ -356,7 +356,7 @@ def _batch_of(mixtures, **kw):
     parts = [component_totals(prob.structure, m.ingredients) for m in mixtures]
     totals = np.array([np.where((p[0] <= 0) & (np.arange(p[0].size) > 0), 1e-200, p[0]) for p in parts])
     inp = kernel_inputs(prob, t_c=np.array([m.temperature_c for m in mixtures]), totals=totals,
-                        inert_i=np.array([p[2] for p in parts]))
+                        inert_i=np.array([p[2] for p in parts]), inert_q=np.array([p[1] for p in parts]))
     return prob, inp, run_kernel(prob, inp, **kw)
 
 

@@ -8,7 +8,7 @@ import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from chem import Ingredient, Mixture, load_library, solve
+from chem import ModelError, Ingredient, Mixture, load_library, solve
 
 LIB = load_library()
 REAGENTS = LIB.reagents
@@ -109,7 +109,13 @@ concentrated = st.builds(
 @settings(max_examples=100, deadline=None)
 @given(concentrated)
 def test_concentrated_mixtures_up_to_5_molar_converge(mix):
-    eq = solve(mix)
+    try:
+        eq = solve(mix)
+    except ModelError as exc:
+        # refused only when beyond any real solution (chem.notices: 30 mol/L of solute, 2500 g/L)
+        mass = sum(i.conc * (i.reagent.molar_mass or 0.0) for i in mix.ingredients)
+        assert sum(i.conc for i in mix.ingredients) > 30.0 or mass > 2500.0, str(exc)
+        return
     assert eq.converged, eq.message
     net = sum(s.charge * s.conc for s in eq.species)
     assert abs(net) <= 1e-12 * charge_scale(eq)
