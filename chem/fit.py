@@ -75,6 +75,8 @@ EP_GRID = 401
 #: dissociation is small beside the base added, and clear excess beyond it).
 GRAN_BEFORE = (0.5, 0.95)
 GRAN_AFTER = 1.1
+#: Smallest steepness of a rough end point of the measured curve, as a fraction of the steepest.
+GRAN_PEAK = 0.25
 
 _UNITS = {"amount": "mol/L", "pKa": "", "titrant": "mol/L", "offset": "pH"}
 
@@ -489,6 +491,8 @@ class _Model:
         tot, _ = self.fam.totals(w)
         inp.totals = tot
         inp.inert_i = w @ self.fam.inert_i
+        if inp.inert_q is not None:                 # the kernel closes the charge balance with it
+            inp.inert_q = w @ self.fam.inert_q
         inp.lnk, inp.sol_b, inp.eq_rhs = lnk, sol_b, eq_rhs
         if self.pka_cols:
             delta = np.array([x[k] - self.x0[k] for k, p in enumerate(self.params) if p.kind == "pKa"])
@@ -801,7 +805,8 @@ def gran_end_points(data: TitrationData, sample_volume_L: float, titrant: Reagen
     short of the end point the straighter one (higher r²) is reported.
 
     The regions come from the measured curve alone: the clear maxima of its
-    slope ΔpH/ΔV give rough end points; the last one, V*, is checked.  When an
+    slope ΔpH/ΔV (at least a quarter as steep as the steepest) give rough end
+    points; the last one, V*, is checked.  When an
     earlier end point V1 precedes it (a polyprotic acid), the weak form uses
     V − V1 in place of V and the region short of V* starts after V1.  Points
     from 0.5 to 0.95 of the way from V1 (or 0) to V*, and beyond V* by a
@@ -819,7 +824,9 @@ def gran_end_points(data: TitrationData, sample_volume_L: float, titrant: Reagen
     v0 = sample_volume_L * 1000.0
     slope = np.abs(np.diff(ph) / np.diff(v))
     mid = 0.5 * (v[1:] + v[:-1])
-    peaks = _peak_indices(slope) if slope.size >= 3 else []
+    # a rough end point must stand out from the valleys beside it and be at least a quarter as
+    # steep as the steepest (scatter in a flat buffer region makes small false maxima)
+    peaks = [i for i in (_peak_indices(slope) if slope.size >= 3 else []) if slope[i] >= GRAN_PEAK * slope.max()]
     if not peaks:
         peaks = [int(np.argmax(slope))]
     v_star = float(mid[peaks[-1]])

@@ -323,8 +323,9 @@ def curve_band(curve) -> Band:
     st = prob.structure
     tot = np.zeros((n, st.n_components))
     inert = np.zeros(n)
+    charge = np.zeros(n)
     for i, m in enumerate(mixes):
-        tot[i], _, inert[i] = component_totals(st, m.ingredients)
+        tot[i], charge[i], inert[i] = component_totals(st, m.ingredients)
     low = tot <= 0.0
     low[:, 0] = False
     zero = low & ~st.supplied[None, :]
@@ -334,7 +335,7 @@ def curve_band(curve) -> Band:
     if st.fixed:
         names = [st.gases[g].name for g in st.fixed]
         pressures = np.array([[{g.gas.name: g.pressure_atm for g in m.gases}[nm] for nm in names] for m in mixes])
-    inp = kernel_inputs(prob, t_c=temps, totals=tot, inert_i=inert, pressures=pressures)
+    inp = kernel_inputs(prob, t_c=temps, totals=tot, inert_i=inert, inert_q=charge, pressures=pressures)
     res = run_kernel(prob, inp)
     der = constant_derivatives(st)
     cols = list(range(len(der.constants)))
