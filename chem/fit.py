@@ -136,6 +136,11 @@ class TitrationData:
     def __len__(self) -> int:
         return int(self.volume_mL.size)
 
+    @property
+    def last_volume_L(self) -> float:
+        """The largest titrant volume measured, L."""
+        return float(self.volume_mL[-1]) / 1000.0
+
     def temperatures(self, default: float) -> np.ndarray:
         """Temperature of every point, °C (``default`` where the data give none)."""
         if self.temperature_c is None:

@@ -54,7 +54,7 @@ def build_overlay(result: chem.Equilibrium, request: PlotRequest, overlay: Overl
     titrant, conc, sample, to = settings.resolve(mixture)
     data = overlay.data
     if data is not None:
-        to = max(to, float(data.volume_mL[-1]) / 1000.0)
+        to = max(to, data.last_volume_L)
     n = grid_points(request.width)
     curve = chem.titration(mixture, titrant, conc, sample, to, points=n,
                            max_points=max(n, MAX_TITRATION_POINTS), progress=_still_wanted)
