@@ -67,6 +67,7 @@ class Inputs:
     sol_b: np.ndarray       # (P, nq)
     allowed: np.ndarray     # (P, nq) bool: which solids may form
     fixed_ionic: np.ndarray | None = None   # (P,) hold I at these values (no self-consistency)
+    w_hess: np.ndarray | None = None        # (ns, nc·nc) ν_sj·ν_sk: the Hessian is c @ w_hess
     z_comp: np.ndarray | None = None        # (nc,) charge of each component; with inert_q, the charge balance
     inert_q: np.ndarray | None = None       # (P,) net charge of the inert ions
     counter_row: int | None = None
@@ -139,13 +140,17 @@ def _objective(inp: Inputs, idx, u, lng) -> tuple[np.ndarray, np.ndarray]:
     return c.sum(axis=1) - np.einsum("pj,pj->p", inp.totals[idx], u), c
 
 
-def _kkt_step(inp: Inputs, idx, u, c, active):
-    """Newton direction d and multipliers (λ of equalities, λ of solids) for the working set.
+def _kkt_step(inp: Inputs, idx, u, c, active, joint=None, ionic=None, lam_prev=None):
+    """Newton direction d, ionic-strength step dI and multipliers (λ of equalities, λ of solids).
 
     Solves [[H, Cᵀ], [C, 0]] [d; λ] = [−g; r] with H = Σ c ν νᵀ, C the
     equality rows and the active solids' rows, r their residuals; inactive
-    solids get an identity row (λ = 0).  Rows and columns are scaled by the
-    diagonal of H so components from 1e-200 to 10 M sit in one system.
+    solids get an identity row (λ = 0).  Where ``joint`` is set, the ionic
+    strength is an unknown too, with its own equation I_computed − I = 0 and
+    d ln γ/dI in the mass balances (Newton on the whole system, quadratic
+    near the solution); elsewhere its row is the identity (dI = 0).  Rows and
+    columns are scaled by the diagonal of H so components from 1e-200 to
+    10 M sit in one system.
     """
     nu = inp.nu
     p = u.shape[0]
@@ -153,30 +158,18 @@ def _kkt_step(inp: Inputs, idx, u, c, active):
     ne = inp.eq_rows.shape[0]
     nq = inp.sol_a.shape[0]
     g = c @ nu - inp.totals[idx]
-    hess = np.matmul(nu.T, c[:, :, None] * nu[None, :, :])
+    if inp.w_hess is not None:
+        hess = (c @ inp.w_hess).reshape(p, nc, nc)
+    else:
+        hess = np.matmul(nu.T, c[:, :, None] * nu[None, :, :])
     diag = np.einsum("pjj->pj", hess)
-    s = 1.0 / np.sqrt(np.maximum(diag, 1e-300))
-    n = nc + ne + nq
-    charge = inp.z_comp is not None and nc > 1
-    if charge:
-        # The H+ row is replaced by the charge balance (row H + Σ_j z_j·row j, the same equations since
-        # every reagent is neutral), computed from the species' charges directly: no cancellation of
-        # large proton totals, so the charge balance closes to round-off of the charges it carries.
-        zc = inp.z_comp
-        q = c @ (nu @ zc) + inp.inert_q[idx]
-        mix_row = (s[:, :1] / s[:, 1:]) * zc[None, 1:]            # (p, nc-1)
-    if n == nc:
-        hs = hess * s[:, :, None] * s[:, None, :]
-        hs[:, np.arange(nc), np.arange(nc)] += 1e-14
-        rhs = -g * s
-        if charge:
-            hs[:, 0, :] += np.einsum("pj,pjk->pk", mix_row, hs[:, 1:, :])
-            rhs[:, 0] = -s[:, 0] * q
-        try:
-            ds = np.linalg.solve(hs, rhs[:, :, None])[:, :, 0]
-        except np.linalg.LinAlgError:
-            ds = _lstsq(hs, rhs)
-        return ds * s, np.zeros((p, 0)), np.zeros((p, 0)), g
+    # scale by the diagonal, but never beyond a trillionth of the component's total: a component held
+    # entirely in a solid has almost no free species, and an unbounded scale would swamp its row
+    floor = np.maximum(1e-12 * np.abs(inp.totals[idx]), 1e-300)
+    s = 1.0 / np.sqrt(np.maximum(diag, floor))
+    ji = 1 if joint is not None and joint.any() else 0
+    o = nc + ji                                      # first multiplier column
+    n = o + ne + nq
     k = np.zeros((p, n, n))
     k[:, :nc, :nc] = hess * s[:, :, None] * s[:, None, :]
     k[:, np.arange(nc), np.arange(nc)] += 1e-14
@@ -186,23 +179,45 @@ def _kkt_step(inp: Inputs, idx, u, c, active):
         e = inp.eq_rows[None, :, :] * s[:, None, :]              # (p, ne, nc)
         norm = 1.0 / np.maximum(np.linalg.norm(e, axis=2), 1e-300)
         e = e * norm[:, :, None]
-        k[:, nc:nc + ne, :nc] = e
-        k[:, :nc, nc:nc + ne] = np.transpose(e, (0, 2, 1))
-        rhs[:, nc:nc + ne] = (inp.eq_rhs[idx] - u @ inp.eq_rows.T) * norm
+        k[:, o:o + ne, :nc] = e
+        k[:, :nc, o:o + ne] = np.transpose(e, (0, 2, 1))
+        rhs[:, o:o + ne] = (inp.eq_rhs[idx] - u @ inp.eq_rows.T) * norm
     else:
         norm = np.zeros((p, 0))
     if nq:
         a = inp.sol_a[None, :, :] * s[:, None, :]                # (p, nq, nc)
         qn = 1.0 / np.maximum(np.linalg.norm(a, axis=2), 1e-300)
         a = a * qn[:, :, None] * active[:, :, None]
-        k[:, nc + ne:, :nc] = a
-        k[:, :nc, nc + ne:] = np.transpose(a, (0, 2, 1))
-        ii = np.arange(nc + ne, n)
+        k[:, o + ne:, :nc] = a
+        k[:, :nc, o + ne:] = np.transpose(a, (0, 2, 1))
+        ii = np.arange(o + ne, n)
         k[:, ii, ii] = np.where(active, 0.0, 1.0)
-        rhs[:, nc + ne:] = np.where(active, (inp.sol_b[idx] - u @ inp.sol_a.T) * qn, 0.0)
+        rhs[:, o + ne:] = np.where(active, (inp.sol_b[idx] - u @ inp.sol_a.T) * qn, 0.0)
     else:
         qn = np.zeros((p, 0))
-    if charge:
+    if ji:
+        jm = joint[:, None]
+        dlng = d_ln_gamma(inp, idx, ionic)                        # (p, ns)
+        cz = c * inp.z2
+        k[:, :nc, nc] = np.where(jm, ((c * -dlng) @ nu) * s, 0.0)
+        k[:, nc, :nc] = np.where(jm, 0.5 * (cz @ nu) * s, 0.0)
+        k[:, nc, nc] = np.where(joint, 0.5 * (cz * -dlng).sum(axis=1) - 1.0, 1.0)
+        # the pH-stat's counter-ion enters through its multiplier's column below (the system
+        # solves for the new multiplier itself, not a change of it)
+        counter = inp.counter_row is not None and ne and lam_prev is not None and lam_prev.shape[1]
+        i_comp = ionic_of(inp, idx, c, None)
+        rhs[:, nc] = np.where(joint, -(i_comp - ionic), 0.0)
+        if counter:
+            mu = lam_prev[:, inp.counter_row]
+            k[:, nc, o + inp.counter_row] = np.where(joint, np.where(mu >= 0, 0.5, -0.5)
+                                                     * norm[:, inp.counter_row], 0.0)
+    if inp.z_comp is not None and nc > 1:
+        # The H+ row is replaced by the charge balance (row H + Σ_j z_j·row j, the same equations since
+        # every reagent is neutral), computed from the species' charges directly: no cancellation of
+        # large proton totals, so the charge balance closes to round-off of the charges it carries.
+        zc = inp.z_comp
+        q = c @ (nu @ zc) + inp.inert_q[idx]
+        mix_row = (s[:, :1] / s[:, 1:]) * zc[None, 1:]            # (p, nc-1)
         k[:, 0, :] += np.einsum("pj,pjk->pk", mix_row, k[:, 1:nc, :])
         rhs[:, 0] = -s[:, 0] * q
     try:
@@ -210,9 +225,10 @@ def _kkt_step(inp: Inputs, idx, u, c, active):
     except np.linalg.LinAlgError:
         sol = _lstsq(k, rhs)
     d = sol[:, :nc] * s
-    lam_e = sol[:, nc:nc + ne] * norm
-    lam_s = np.where(active, sol[:, nc + ne:] * qn, 0.0) if nq else np.zeros((p, 0))
-    return d, lam_e, lam_s, g
+    d_i = sol[:, nc] if ji else np.zeros(p)
+    lam_e = sol[:, o:o + ne] * norm
+    lam_s = np.where(active, sol[:, o + ne:] * qn, 0.0) if nq else np.zeros((p, 0))
+    return d, d_i, lam_e, lam_s, g
 
 
 def _lstsq(k: np.ndarray, rhs: np.ndarray) -> np.ndarray:
@@ -271,6 +287,7 @@ def _iterate(inp: Inputs, idx: np.ndarray, u: np.ndarray, ionic: np.ndarray, act
     omega = np.ones(p)
     last_di = np.zeros(p)
     gave_up = np.zeros(p, dtype=bool)
+    near_prev = np.zeros(p, dtype=bool)
     cap_i = _ionic_cap(inp, idx)
     base = _subset(inp, idx)
     sub, sub_work = base, work
@@ -285,7 +302,8 @@ def _iterate(inp: Inputs, idx: np.ndarray, u: np.ndarray, ionic: np.ndarray, act
         lng = ln_gamma(sub, local, iw)
         c = concentrations(sub, local, uw, lng)
         f0 = c.sum(axis=1) - (tot * uw).sum(axis=1)
-        d, le, ls, g = _kkt_step(sub, local, uw, c, aw)
+        joint = near_prev[work] if update_i else None
+        d, d_i, le, ls, g = _kkt_step(sub, local, uw, c, aw, joint, iw, lam_e[work] if ne else None)
         # step length: cap, blocking solids, Armijo backtracking on f
         big = np.abs(d).max(axis=1)
         cap = np.minimum(1.0, STEP_MAX / np.maximum(big, 1e-300))
@@ -297,6 +315,8 @@ def _iterate(inp: Inputs, idx: np.ndarray, u: np.ndarray, ionic: np.ndarray, act
         slope = (g * d).sum(axis=1)
         scale = c.sum(axis=1) + np.abs((tot * uw).sum(axis=1)) + 1e-300
         trust = (slope < 0) & (np.abs(slope) > 1e-13 * scale)
+        if joint is not None:
+            trust &= ~joint                   # whole-system Newton steps near the solution: taken as they are
         u_new = uw + alpha[:, None] * d
         c_new = concentrations(sub, local, u_new, lng)
         if trust.any():
@@ -344,9 +364,13 @@ def _iterate(inp: Inputs, idx: np.ndarray, u: np.ndarray, ionic: np.ndarray, act
             om = np.where(flip, 0.5 * omega[work], np.minimum(1.0, omega[work] * 1.25))
             omega[work] = om
             last_di[work] = np.where(near, delta, last_di[work])
-            ionic[work] = iw + om * delta
-            gave_up[work] = om < 1.0 / 256
-            di = np.where(near, np.abs(delta), np.inf)
+            lagged = iw + om * delta
+            jw = joint & near
+            stepped = np.clip(iw + alpha * d_i, 0.1 * iw, cap_i[work])
+            ionic[work] = np.where(jw, stepped, lagged)
+            gave_up[work] = (om < 1.0 / 256) & ~jw
+            di = np.where(jw, np.abs(alpha * d_i) + np.abs(i_new - stepped), np.where(near, np.abs(delta), np.inf))
+            near_prev[work] = near
             done = (alpha * big < STEP_TOL) & (alpha == 1.0) & (di <= 2e-14 * np.maximum(ionic[work], 1e-300)
                                                                  + 1e-18)
         else:
@@ -455,23 +479,38 @@ def _nested(inp: Inputs, idx, u, ionic, active, budget: int):
 def _ionic_cap(inp: Inputs, idx) -> np.ndarray:
     """No ionic strength can exceed this.
 
-    Each species (other than H+ and OH-) holds at most T_j/ν_sj of any
-    component j in it; H+ and OH- are bounded by the proton total and the
-    strong base, both within |T_H| plus the other totals' protons.
+    A species holds at most T_j/ν_sj of any component j in it, so charging
+    each species to one of its components bounds ½ Σ z² c by ½ Σ_j T_j M_j;
+    H+ and OH- are bounded by the proton total and the strong base, both
+    within |T_H| plus the other totals' protons (and 1 M covers pure water).
     """
     nu = inp.nu
     tot = np.abs(inp.totals[idx])                                  # (P, nc)
-    if nu.shape[1] > 1:
-        with np.errstate(divide="ignore", invalid="ignore"):
-            lim = np.where(nu[None, :, 1:] > 0, tot[:, None, 1:] / np.where(nu[:, 1:] > 0, nu[:, 1:], 1.0)[None],
-                           np.inf).min(axis=2)                      # (P, ns)
-    else:
-        lim = np.zeros((tot.shape[0], nu.shape[0]))
-    lim = np.where(np.isfinite(lim), lim, 0.0)
-    lim[:, :2] = 0.0
+    weight = cap_weights(nu, inp.z2)
     hmax = float(np.abs(nu[:, 0]).max(initial=1.0))
-    water = tot[:, 0] + hmax * tot[:, 1:].sum(axis=1) + 1.0          # H+ and OH- (1 M covers pure water)
-    return 1.1 * (inp.inert_i[idx] + 0.5 * lim @ inp.z2 + water) + 1e-6
+    water = tot[:, 0] + hmax * tot[:, 1:].sum(axis=1) + 1.0
+    return 1.1 * (inp.inert_i[idx] + 0.5 * tot @ weight + water) + 1e-6
+
+
+_CAP_WEIGHTS: dict = {}
+
+
+def cap_weights(nu: np.ndarray, z2: np.ndarray) -> np.ndarray:
+    """Per component: Σ z_s²/ν_sj over the species charged to it (see :func:`_ionic_cap`); cached per table."""
+    key = (id(nu), nu.shape)
+    hit = _CAP_WEIGHTS.get(key)
+    if hit is not None and hit[0] is nu:
+        return hit[1]
+    weight = np.zeros(nu.shape[1])
+    for r in range(2, nu.shape[0]):
+        pos = np.nonzero(nu[r, 1:] > 0)[0]
+        if pos.size:
+            j = 1 + pos[0]
+            weight[j] += z2[r] / nu[r, j]
+    if len(_CAP_WEIGHTS) > 256:
+        _CAP_WEIGHTS.clear()
+    _CAP_WEIGHTS[key] = (nu, weight)
+    return weight
 
 
 def _make_feasible(inp: Inputs, idx, u: np.ndarray) -> np.ndarray:
@@ -595,7 +634,7 @@ def make_layout(nu: np.ndarray, sys_rows, sys_comp, ion_cols, ion_rows) -> Layou
 
 
 def starting_values(inp: Inputs, lay: Layout, *, h_fixed: np.ndarray | None = None,
-                    sweeps: int = 4) -> tuple[np.ndarray, np.ndarray]:
+                    sweeps: int = 6) -> tuple[np.ndarray, np.ndarray]:
     """Starting u and I: the acid–base equilibrium with complexes left out, then a few
     log-ratio sweeps that let the complexes take their share of each component.
 
@@ -616,7 +655,7 @@ def starting_values(inp: Inputs, lay: Layout, *, h_fixed: np.ndarray | None = No
             i0 = np.array(inp.fixed_ionic, dtype=float)
         u = np.zeros((p, inp.nu.shape[1]))
         x = None
-        for _ in range(2):
+        for _ in range(1):     # one pass: the Newton iteration corrects the ionic strength quadratically
             lng = ln_gamma(inp, idx, i0)
             x = _acid_base_x(inp, lay, lng, h_fixed, x)
             u[:, 0] = x
@@ -651,7 +690,7 @@ def starting_values(inp: Inputs, lay: Layout, *, h_fixed: np.ndarray | None = No
                 m2 = c @ (pos * pos)
                 nbar = np.maximum(m2 / np.maximum(m, 1e-300), 1.0)
                 step = np.log(tot / np.maximum(m, 1e-300)) / nbar
-                step = np.clip(np.where(np.isfinite(step), step, 0.0), -STEP_MAX, STEP_MAX)
+                step = np.clip(np.where(np.isfinite(step), step, 0.0), -200.0, 200.0)
                 u[:, comps] += step[:, comps]
             if inp.fixed_ionic is None and not inp.model.ideal:
                 c = concentrations(inp, idx, u, lng)

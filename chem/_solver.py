@@ -144,7 +144,12 @@ def kernel_inputs(prob: Problem, *, t_c=None, totals=None, inert_i=None, pressur
     iq = None
     if fixed_ph is None:     # a pH-stat's added acid or base carries charge the totals do not show
         iq = np.broadcast_to(np.asarray(prob.inert_q if inert_q is None else inert_q, dtype=float), (p,)).copy()
-    return K.Inputs(nu=st.nu, z2=st.z2, size=st.size, model=st.model, lnk=np.ascontiguousarray(lnk),
+    w_hess = st.cache.get("w_hess")
+    if w_hess is None:
+        nu = st.nu
+        w_hess = st.cache["w_hess"] = np.ascontiguousarray(
+            (nu[:, :, None] * nu[:, None, :]).reshape(nu.shape[0], -1))
+    return K.Inputs(nu=st.nu, z2=st.z2, size=st.size, model=st.model, lnk=np.ascontiguousarray(lnk), w_hess=w_hess,
                     totals=np.ascontiguousarray(tot), a=a, b=b, inert_i=np.array(ii), eq_rows=eq_rows,
                     eq_rhs=eq_rhs, sol_a=sol_a, sol_b=np.ascontiguousarray(sol_b), allowed=allowed,
                     fixed_ionic=fi, counter_row=counter, z_comp=st.z_comp if iq is not None else None,
@@ -445,6 +450,8 @@ def _state_from_x(prob: Problem, lnk: np.ndarray, x: float, ionic: float, a: flo
         w = np.where(lay.mask, lnk[lay.rows] - lng[lay.rows] + lay.j * u[0], -np.inf)
         top = w.max(axis=1)
         u[lay.comp] = np.log(prob.totals[lay.comp]) - (top + np.log(np.exp(w - top[:, None]).sum(axis=1)))
+    if lay.ion_cols.size:          # strong ions a candidate solid names: all free
+        u[lay.ion_cols] = np.log(prob.totals[lay.ion_cols]) + lng[lay.ion_rows]
     lnc = np.minimum(lnk - lng + st.nu @ u, 690.0)
     return u, lng, np.exp(lnc)
 
@@ -498,9 +505,15 @@ def solve(mixture: Mixture, *, tol: float = 1e-13, max_iter: int = 200) -> Equil
     if st.fast:
         lnk = LN10 * prob.log_k()
         data = fast_data(prob, lnk)
+        # strong ions that only a candidate solid names react with nothing here: inert for the fast path
+        q_s, i_s = prob.inert_q, prob.inert_i
+        base = 1 + len(st.systems)
+        for k, ion in enumerate(st.ions):
+            q_s += ion.charge * float(prob.totals[base + k])
+            i_s += 0.5 * ion.charge * ion.charge * float(prob.totals[base + k])
         try:
             x, ionic, resid, scale, converged, iterations = fast_solve(
-                data, prob.inert_q, prob.inert_i, 10.0 ** -pkw, a, b, st.model, tol=tol, max_iter=max_iter)
+                data, q_s, i_s, 10.0 ** -pkw, a, b, st.model, tol=tol, max_iter=max_iter)
         except OverflowError:          # activity coefficients beyond floating point: the general kernel
             converged, iterations = False, 0
         if converged or max_iter < 50:
@@ -591,11 +604,18 @@ def assemble(prob: Problem, state: _State) -> Equilibrium:
     totals = prob.totals.tolist()
     ph = -float(u[0]) / LN10
     rows, ion_rows, sys_tpl = _templates(st)
+    # a fixed gas exchanges material: then a system's total is what is there at equilibrium
+    denominator = list(totals)
+    if st.fixed:
+        amounts_arr = state.amounts if state.amounts.size else np.zeros(len(st.solids))
+        there = (c_arr @ st.nu + amounts_arr @ st.sol_a).tolist() if st.solids else (c_arr @ st.nu).tolist()
+        for col in np.nonzero(st.supplied)[0]:
+            denominator[col] = there[col] if there[col] > 0 else totals[col]
     species: list[Species] = []
     for r, name, sys_name, protons, z, holds, ions, col in rows:
         frac = None
         if col >= 0:
-            tot = totals[col]
+            tot = denominator[col]
             frac = min(c_raw[r] / tot, 1.0) if tot > 0 else 0.0
         species.append(Species(name, sys_name, protons, z, c[r], gamma[r], frac, holds, ions))
     mdl = st.model

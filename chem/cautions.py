@@ -47,7 +47,7 @@ def cautions_for(eq: Equilibrium) -> list[Notice]:
 
     flagged_gas = set()
     for g in eq.gases:
-        if g.exposure_limit_ppm is None:
+        if g.exposure_limit_ppm is None or g.fixed:     # a gas the user holds is no release
             continue
         ppm = g.pressure_atm * PPM_PER_ATM
         if ppm > g.exposure_limit_ppm:

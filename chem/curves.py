@@ -268,7 +268,14 @@ class _Family:
         frac = np.full(conc.shape, np.nan)
         sys_cols = self.frac_col >= 0
         if sys_cols.any():
-            frac[:, sys_cols] = res.conc[:, self.rows[sys_cols]] / inp.totals[:, self.frac_col[sys_cols]]
+            denom = np.array(inp.totals)
+            if st.fixed:      # a fixed gas exchanges material: the total is what is there at equilibrium
+                there = res.conc @ st.nu
+                if st.solids:
+                    there = there + res.amounts @ st.sol_a
+                denom[:, st.supplied] = np.where(there[:, st.supplied] > 0, there[:, st.supplied],
+                                                 denom[:, st.supplied])
+            frac[:, sys_cols] = res.conc[:, self.rows[sys_cols]] / denom[:, self.frac_col[sys_cols]]
         out = {"pH": -res.u[:, 0] / LN10, "ionic": np.array(res.ionic), "conc": conc, "fraction": frac,
                "converged": np.array(res.converged), "u": res.u}
         if st.solids:

@@ -90,8 +90,9 @@ def warnings_for(eq: Equilibrium, problem=None) -> list[Notice]:
             missing += [g.name for g in st.gases if g.dh_kj is None]
             if missing:
                 shown = ", ".join(missing[:6]) + (f" and {len(missing) - 6} more" if len(missing) > 6 else "")
+                which = "its 25 °C constant is" if len(missing) == 1 else "their 25 °C constants are"
                 out.append(Notice("no-temperature-data",
-                                  f"No reaction enthalpy for {shown}: their 25 °C constants are used at {t:g} °C."))
+                                  f"No reaction enthalpy for {shown}: {which} used at {t:g} °C."))
         conditional = [s.name for s in st.systems if s.ionic_strength > 0]
         conditional += [cx.name for cx in st.complexes if cx.ionic_strength > 0]
         if conditional and model == "ideal":

@@ -394,3 +394,17 @@ def test_general_kernel_handles_excess_strong_base(naoh):
     assert plain.converged and general.converged
     assert general.pH == pytest.approx(plain.pH, abs=1e-10)
     assert general.ionic_strength == pytest.approx(plain.ionic_strength, rel=1e-10)
+
+
+def test_a_strong_ion_named_only_by_a_candidate_solid_still_counts_in_the_fast_path():
+    # A solid that may not form (here MCl2 with precipitation off) makes Cl- a component of the problem
+    # without any complex; the fast acid–base path must still count its charge and ionic strength.
+    extra = '[[custom_solid]]\nname = "MCl2(s)"\nreaction = { "M^2+" = 1, "Cl-" = 2 }\nlog_K = -3.0\n'
+    mix = metal_ligand(extra + '[[ingredient]]\nname = "acetic acid"\nconc = "10 mM"\n', activity="davies")
+    prob = compile(mix)
+    assert prob.structure.fast and prob.structure.ions          # the regression's precondition
+    fast = solve(mix)
+    general = assemble(prob, state_of(run_kernel(prob, kernel_inputs(prob)), 0))
+    assert fast.pH == pytest.approx(general.pH, abs=1e-10)
+    assert fast.ionic_strength == pytest.approx(0.5 * sum(s.charge ** 2 * s.conc for s in fast.species), rel=1e-10)
+    assert abs(fast.balance_error) < 1e-15
