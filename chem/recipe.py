@@ -192,6 +192,18 @@ class Recipe:
         """
         return solve(self.mixture.with_temperature(temperature_c)).pH
 
+    @property
+    def uncertainty(self):
+        """How far the pH could be off: from the constants and from ±1 % on each amount
+        (:class:`chem.uncertainty.RecipeUncertainty`)."""
+        cached = self.__dict__.get("_uncertainty")
+        if cached is None:
+            from .uncertainty import recipe_uncertainty
+
+            cached = recipe_uncertainty(self.equilibrium)
+            self.__dict__["_uncertainty"] = cached          # frozen, so safe to remember
+        return cached
+
     def to_dict(self) -> dict:
         """The JSON object of ``protomix recipe --json``."""
         return {
@@ -216,6 +228,7 @@ class Recipe:
             "warnings": [{"code": w.code, "message": w.message} for w in self.warnings],
             "cautions": [{"code": c.code, "message": c.message} for c in self.cautions],
             **self._free_dict(),
+            "uncertainty": self.uncertainty.to_dict(),
         }
 
     @property

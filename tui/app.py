@@ -38,6 +38,7 @@ from textual.worker import Worker, WorkerCancelled, WorkerFailed, WorkerState, g
 import chem
 from chem.activity import MODELS
 from tui import storage
+from tui.fit_actions import FitActions
 from tui.messages import AutosaveWritten, Plotted, Solved
 from tui.text import one_line
 from tui.widgets.flask_list import FlaskList
@@ -121,6 +122,8 @@ COMMANDS: tuple[Command, ...] = (
             "dilution)", True),
     Command("v", "curve_setup", "Curve", "Set up the titration or sweep shown in the chart"),
     Command("b", "recipe", "Recipe", "Design a buffer recipe and load it into the flask"),
+    Command("f", "fit", "Fit", "Fit a measured titration (CSV); show its points on the titration plot"),
+    Command("i", "uncertainty", "± pH", "Show or hide the uncertainty: ± beside the pH, a band on the titration"),
     Command("a", "plot_scope", "All/one", "Plot all systems or only the selected ingredient's"),
     Command("w", "notices", "Notices", "Explain the current warnings and cautions"),
     Command("s,ctrl+s", "save", "Save", "Save the mixture as a preset", True),
@@ -140,7 +143,7 @@ def _bindings() -> list[Binding]:
             for c in COMMANDS if c.key]
 
 
-class ExplorerApp(App[int]):
+class ExplorerApp(FitActions, App[int]):
     """The live explorer of one mixture."""
 
     CSS_PATH = Path(__file__).with_name("app.tcss")
@@ -329,7 +332,7 @@ class ExplorerApp(App[int]):
     @property
     def kinds(self) -> tuple[PlotKind, ...]:
         """Every plot the chart can show, the curve kinds with their current settings."""
-        return PLOT_KINDS + _curves().curve_kinds(self._titration, self._sweep)
+        return self.with_overlay(PLOT_KINDS + _curves().curve_kinds(self._titration, self._sweep))
 
     def _kind(self) -> PlotKind:
         for kind in PLOT_KINDS:                         # the common case, without loading the curves

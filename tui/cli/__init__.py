@@ -31,6 +31,7 @@ SUBCOMMANDS = {
     "library": "tui.cli.library_cmd",
     "curve": "tui.cli.curve_cmd",
     "recipe": "tui.cli.recipe_cmd",
+    "fit": "tui.cli.fit_cmd",
 }
 
 EXIT_OK = 0

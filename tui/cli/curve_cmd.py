@@ -60,6 +60,7 @@ _ONLY_FOR = {
     "vary": ("--vary", ("sweep",)),
     "fractions": ("--fractions", ("titration", "dilution", "sweep")),
     "species": ("--species", ("titration", "dilution", "sweep", "distribution", "logc")),
+    "uncertainty": ("--uncertainty", ("titration", "dilution", "sweep")),
     "system": ("--system", ("distribution",)),
     "solid": ("--solid", ("solubility",)),
 }
@@ -106,6 +107,8 @@ def add_arguments(parser) -> None:
     out = parser.add_argument_group("output").add_mutually_exclusive_group()
     out.add_argument("--csv", action="store_true", help="write the data as CSV")
     out.add_argument("--json", action="store_true", help="write the data as one JSON object")
+    parser.add_argument("--uncertainty", action="store_true",
+                        help="add a 95 %% band from the constants' uncertainties (series NAME_lo, NAME_hi)")
     parser.add_argument("--width", type=int, metavar="COLS", help="plot width (default: the terminal's)")
     parser.add_argument("--height", type=int, metavar="ROWS", help="plot height (default: about 24 rows)")
 
@@ -135,6 +138,8 @@ class _Result:
     equivalence: list[tuple[float, float]] = field(default_factory=list)
     notes: list[str] = field(default_factory=list)
     not_converged: int = 0
+    curve: object = None
+    """The chem curve behind the series (titration, dilution, sweep), for --uncertainty."""
     level_name: str | None = None
     """A titration's tracked level (e.g. "pCa"), reported with each equivalence point."""
     levels: list[float] = field(default_factory=list)
@@ -266,7 +271,7 @@ def _titration(args, mixture, progress) -> _Result:
     res = _Result("titration", curve.x_label, curve.x, series, main, ylabel, "titrant added (mL)",
                   extra=names, extra_label="fraction" if args.fractions else "mol/L",
                   marks=[v for v, _ in eqp], equivalence=eqp, notes=notes,
-                  not_converged=int((~curve.converged).sum()))
+                  not_converged=int((~curve.converged).sum()), curve=curve)
     if track:
         res.level_name = level
         res.levels = levels
@@ -320,7 +325,7 @@ def _dilution(args, mixture, progress) -> _Result:
     notes = [f"pH {curve.pH[0]:.3f} undiluted, {curve.pH[-1]:.3f} at {hi:g}-fold dilution"]
     return _Result("dilution", curve.x_label, curve.x, series, ["pH"], "pH", "dilution factor", extra=names,
                    extra_label="fraction" if args.fractions else "mol/L", log_x=True, notes=notes,
-                   not_converged=int((~curve.converged).sum()))
+                   not_converged=int((~curve.converged).sum()), curve=curve)
 
 
 def _sweep(args, mixture, progress) -> _Result:
@@ -373,7 +378,7 @@ def _sweep(args, mixture, progress) -> _Result:
         notes.append("series named after a solid are its saturation index; <gas>_atm the partial pressure")
     return _Result("sweep", curve.x_label, curve.x, series, ["pH"], "pH", xlabel, extra=names,
                    extra_label="fraction" if args.fractions else "mol/L", notes=notes,
-                   not_converged=int((~curve.converged).sum()))
+                   not_converged=int((~curve.converged).sum()), curve=curve)
 
 
 def _diagram(args, mixture, progress) -> _Result:
@@ -556,6 +561,10 @@ def run(args) -> int:
         bar.close()
     from tui.text import printable, safe_json
 
+    if getattr(args, "uncertainty", False):
+        from tui.cli.curve_band import add_band
+
+        add_band(res)
     if res.not_converged:
         print(f"protomix: warning: {res.not_converged} point(s) did not converge; their numbers are unreliable",
               file=sys.stderr)

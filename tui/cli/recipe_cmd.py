@@ -163,6 +163,13 @@ def render_recipe(recipe) -> str:
         out.append(f"free {recipe.free_species}: {format_molar(sp.conc, 4)} (wanted {format_molar(recipe.free_target, 4)}), "
                    f"p{recipe.free_species.split('^')[0].rstrip('+-')} {-math.log10(sp.activity):.3f} "
                    f"(−log activity)")
+    unc = recipe.uncertainty
+    lo, hi = unc.interval_95
+    out.append(f"how sure: pH {recipe.pH:.2f} ± {unc.sd:.3f} (95 %: {lo:.2f} to {hi:.2f}); from the constants "
+               f"± {unc.constants_sd:.3f}, from weighing (±{100 * unc.rel_sd:g} % on each amount) ± {unc.weighing_sd:.3f}")
+    if unc.defaults:
+        out.append("  (no uncertainty stated for " + ", ".join(unc.defaults[:3])
+                   + ("; ..." if len(unc.defaults) > 3 else "") + ": a default was used)")
     out += notice_lines(recipe)
     out.append("")
     out.append("Model estimate: check with a calibrated pH meter at the working temperature.")

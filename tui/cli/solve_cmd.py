@@ -20,6 +20,11 @@ def notice_lines(result) -> list[str]:
 def add_arguments(parser) -> None:
     parser.add_argument("file", metavar="FILE.toml", help="preset file to solve")
     parser.add_argument("--json", action="store_true", help="print the result as one JSON object")
+    parser.add_argument("--uncertainty", action="store_true",
+                        help="also give the uncertainty of pH and species from the constants' uncertainties "
+                             "(first-order propagation)")
+    parser.add_argument("--monte-carlo", type=int, metavar="N",
+                        help="with --uncertainty: propagate by N Monte Carlo draws instead")
 
 
 def _fmt(x: float | None, spec: str) -> str:
@@ -123,11 +128,29 @@ def run(args) -> int:
     from tui.text import printable, safe_json
 
     eq = solve(load_preset(args.file))
+    unc = _uncertainty(eq, args) if args.uncertainty or args.monte_carlo is not None else None
     if args.json:
-        sys.stdout.write(safe_json(json.dumps(eq.to_dict(), indent=2, ensure_ascii=False)) + "\n")
+        doc = eq.to_dict()
+        if unc is not None:
+            doc["uncertainty"] = unc.to_dict()
+        sys.stdout.write(safe_json(json.dumps(doc, indent=2, ensure_ascii=False)) + "\n")
     else:
         print(printable(render_table(eq), newlines=True))     # names and titles come from a shared file
+        if unc is not None:
+            from tui.cli.uncertainty_text import uncertainty_lines
+
+            print(printable("\n".join(uncertainty_lines(unc)), newlines=True))
     if not eq.converged:
         print("protomix: warning: the solve did not converge; the numbers above are unreliable", file=sys.stderr)
         return 3
     return 0
+
+
+def _uncertainty(eq, args):
+    from chem.uncertainty import UncertaintyError, propagate
+
+    if args.monte_carlo is not None:
+        if not args.uncertainty:
+            raise UncertaintyError("--monte-carlo goes with --uncertainty")
+        return propagate(eq, method="monte-carlo", samples=args.monte_carlo)
+    return propagate(eq)

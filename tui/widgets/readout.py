@@ -56,6 +56,8 @@ class Readout(Widget):
     """The state changes are measured against, or None."""
     capacity: var[float | None] = var(None, init=False)
     """Buffer capacity β at the current pH, mol/(L·pH), or None."""
+    ph_sd: var[float | None] = var(None, init=False)
+    """Standard uncertainty of the pH from the constants (shown as ±), or None when not shown."""
 
     def __init__(self, *, id: str | None = None) -> None:
         super().__init__(id=id)
@@ -71,6 +73,9 @@ class Readout(Widget):
     def watch_capacity(self) -> None:
         self._redraw()
 
+    def watch_ph_sd(self) -> None:
+        self._redraw()
+
     def on_resize(self) -> None:
         self._redraw()
 
@@ -81,6 +86,9 @@ class Readout(Widget):
         width = self.content_size.width
         digits = big_digits(f"{eq.pH:.2f}")
         side: list[list[Piece]] = [[(f"pH  {eq.pH:.3f}", "readout--bold")], [(f"pOH {eq.pOH:.3f}", "")], []]
+        if self.ph_sd is not None:
+            sd = self.ph_sd
+            side[0].append((f" ± {sd:.3f}" if sd >= 0.0005 else " ± <0.001", "readout--delta"))
         if self.pinned is not None:
             side[2] = [(f"ΔpH {signed(eq.pH - self.pinned.pH, 3)}", "readout--delta")]
         lines: list[list[Piece]] = []
