@@ -27,7 +27,7 @@ PH_MAX = 14.0
 STANDARD_TEMPERATURE_C = 25.0
 
 __all__ = ["PH_MIN", "PH_MAX", "T_MIN_C", "T_MAX_C", "STANDARD_TEMPERATURE_C", "LOG_C_FLOOR", "check_ph",
-           "check_ph_range", "check_temperature", "neutral_ph", "ph_grid"]
+           "check_ph_range", "check_temperature", "neutral_ph", "ph_grid", "AIR_GAS", "AIR_PRESSURE"]
 
 
 def check_ph(value: float, what: str = "pH") -> float:
@@ -86,3 +86,11 @@ def neutral_ph(temperature_c: float) -> float:
 #: Lowest log10 C (mol/L) drawn in a log C plot: lower values are clipped to it for drawing
 #: only (common practice: the range of interest of aqueous log C diagrams); data keep their values.
 LOG_C_FLOOR = -14.0
+
+#: The gas an open flask exchanges with room air, and its partial pressure as a user would write
+#: it (the explorer's "open to air"). Globally averaged CO2 in air was about 419 ppm in 2023
+#: (NOAA Global Monitoring Laboratory, globally averaged marine surface annual mean, Lan, Tans &
+#: Thoning; from memory), rounded up; at 1 atm total pressure ppm and µatm agree to within the
+#: share of water vapour, which is the precision such a default has anyway.
+AIR_GAS = "CO2"
+AIR_PRESSURE = "420 uatm"

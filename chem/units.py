@@ -221,3 +221,25 @@ def parse_pressure(value) -> float:
     if p > MAX_PRESSURE_ATM:
         raise UnitError(f"{shown(value)}: more than {MAX_PRESSURE_ATM:g} atm")
     return p
+
+
+# -- showing pressures -------------------------------------------------------------------
+
+def pressure_ppm(atm: float) -> float:
+    """A partial pressure in atm as ppm of a 1 atm total pressure (how exposure limits are written)."""
+    return atm / _PRESSURE["ppm"]
+
+
+def format_pressure(atm: float) -> str:
+    """A partial pressure for display: atm from 0.1 atm up, % from 0.1 %, ppm below.
+
+    >>> format_pressure(0.00042), format_pressure(0.05), format_pressure(2.0)
+    ('420 ppm', '5 %', '2 atm')
+    """
+    if not math.isfinite(atm):
+        return "-"
+    if atm >= 0.1:
+        return f"{atm:.3g} atm"
+    if atm >= 1e-3:
+        return f"{atm / _PRESSURE['%']:.3g} %"
+    return f"{pressure_ppm(atm):.3g} ppm"

@@ -39,10 +39,12 @@ import chem
 from chem.activity import MODELS
 from tui import storage
 from tui.fit_actions import FitActions
+from tui.speciation_actions import SpeciationActions
 from tui.messages import AutosaveWritten, Plotted, Solved
 from tui.text import one_line
 from tui.widgets.flask_list import FlaskList
 from tui.widgets.notice_bar import NoticeBar
+from tui.widgets.phase_panel import PhasePanel
 from tui.widgets.plot_area import PlotArea, prepare
 from tui.widgets.plot_kinds import PLOT_KINDS, PlotKind, PlotRequest, PlotStyle, draw_kind, locale_is_utf8
 from tui.widgets.readout import Readout
@@ -129,6 +131,16 @@ COMMANDS: tuple[Command, ...] = (
     Command("s,ctrl+s", "save", "Save", "Save the mixture as a preset", True),
     Command("o,ctrl+o", "open", "Open", "Open a shipped or saved preset", True),
     Command("q", "quit", "Quit", "Quit (asks first if the mixture has unsaved changes)"),
+    # -- full speciation: species by system, solids, precipitation, gases (tui/speciation_actions.py) --
+    Command("l", "species_view", "Species by system", "List species by system (each form's share of the "
+            "system's total) or as one flat list"),
+    Command("S", "solids", "Solids and gases", "Show the solids (saturation index, amount precipitated, "
+            "which may form) and the gases over the solution, in place of the species"),
+    Command("P", "precipitation", "Precipitation", "Precipitation: off, every solid, or the solids chosen "
+            "in the solids view (space)"),
+    Command("A", "air", "Open to air", "Open the flask to air (CO2 held at its air pressure) or close it"),
+    Command("G", "gas", "Hold a gas", "Hold a gas at a partial pressure you type (5 %, 420 uatm, 10 ppm), "
+            "or release it"),
 )
 
 
@@ -143,7 +155,7 @@ def _bindings() -> list[Binding]:
             for c in COMMANDS if c.key]
 
 
-class ExplorerApp(FitActions, App[int]):
+class ExplorerApp(SpeciationActions, FitActions, App[int]):
     """The live explorer of one mixture."""
 
     CSS_PATH = Path(__file__).with_name("app.tcss")
@@ -205,9 +217,12 @@ class ExplorerApp(FitActions, App[int]):
         yield TitleBar(id="title-bar")
         with Horizontal(id="upper"):
             yield FlaskList(self._start, id="flask")
-            yield Readout(id="readout").data_bind(ExplorerApp.result, ExplorerApp.pinned, ExplorerApp.capacity)
+            yield Readout(utf8=self._utf8, id="readout").data_bind(ExplorerApp.result, ExplorerApp.pinned,
+                                                                   ExplorerApp.capacity)
         with Horizontal(id="lower"):
-            yield SpeciesTable(id="species").data_bind(ExplorerApp.result, ExplorerApp.pinned)
+            yield SpeciesTable(utf8=self._utf8, id="species").data_bind(ExplorerApp.result, ExplorerApp.pinned)
+            yield PhasePanel(self.library.gases, utf8=self._utf8, id="solids").data_bind(ExplorerApp.result,
+                                                                                        ExplorerApp.pinned)
             yield PlotArea(id="chart")
         yield NoticeBar(id="notices").data_bind(ExplorerApp.result)
         yield Static("", id="too-small")
@@ -216,6 +231,8 @@ class ExplorerApp(FitActions, App[int]):
         self.query_one("#flask").border_title = "Flask"
         self.query_one("#readout").border_title = "Readout"
         self.query_one("#species").border_title = "Species"
+        self.query_one("#solids").border_title = "Solids and gases"
+        self.query_one("#solids").border_subtitle = "space form/hold · enter pressure"
         self.theme_changed_signal.subscribe(self, lambda _theme: self._recompute())
         # The first solve takes about a millisecond: do it here, so the very first frame shows the pH
         # (the worker then only draws the plot).
@@ -277,6 +294,7 @@ class ExplorerApp(FitActions, App[int]):
             self.query_one("#too-small", Static).update(
                 f"The terminal is {width}×{height}: too small.\nEnlarge the window to at least "
                 f"{MIN_SIZE[0]}×{MIN_SIZE[1]}.\nKeys still work: s saves, q quits.")
+        self._fit_upper()
         was_small = main.has_class("-too-small")
         main.set_class(small, "-too-small")
         if was_small and not small and self.screen is main:

@@ -10,6 +10,7 @@ from tui.app import AUTOSAVE_DELAY_S, ExplorerApp
 from tui.screens.choice import Choice
 from tui.screens.preset_picker import PresetPicker
 from tui.widgets.readout import Readout
+from tui.formula import shown_name
 from tui.widgets.species_table import SpeciesTable
 from tui.widgets.title_bar import TitleBar
 
@@ -29,7 +30,7 @@ async def test_pinning_shows_changes_against_the_pinned_state(acetate_buffer, se
         assert f"ΔpH {after.pH - before.pH:+.3f}" in side
         table = app.query_one(SpeciesTable)
         assert "Δlog C" in table.header
-        row = next(line for line in table.lines if line.startswith("CH3COO- "))
+        row = next(line for line in table.lines if line.startswith(shown_name("CH3COO-", table.utf8) + " "))
         change = after.get("CH3COO-").log_c - before.get("CH3COO-").log_c
         assert f"{change:+.2f}" in row
         assert "pinned" in text_of(app.query_one(TitleBar))
@@ -46,8 +47,8 @@ async def test_a_species_missing_from_the_pinned_state_is_marked_new(acetate_buf
         await settle(pilot)
         await pilot.press("p", "n", *"NH4Cl", "enter", "enter")
         await settle(pilot)
-        lines = app.query_one(SpeciesTable).lines
-        assert any(line.startswith("NH4+ ") and " new" in line for line in lines)
+        table = app.query_one(SpeciesTable)
+        assert any(line.startswith(shown_name("NH4+", table.utf8) + " ") and " new" in line for line in table.lines)
 
 
 async def test_save_then_reopen_gives_back_the_same_mixture(acetate_buffer, settle, data_dir):
