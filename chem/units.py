@@ -231,15 +231,16 @@ def pressure_ppm(atm: float) -> float:
 
 
 def format_pressure(atm: float) -> str:
-    """A partial pressure for display: atm from 0.1 atm up, % from 0.1 %, ppm below.
+    """A partial pressure for display: atm from 0.1 atm up, % from 1 %, ppm below.
 
-    >>> format_pressure(0.00042), format_pressure(0.05), format_pressure(2.0)
-    ('420 ppm', '5 %', '2 atm')
+    >>> format_pressure(0.00042), format_pressure(0.0012), format_pressure(0.05), format_pressure(2.0)
+    ('420 ppm', '1200 ppm', '5 %', '2 atm')
     """
     if not math.isfinite(atm):
         return "-"
     if atm >= 0.1:
         return f"{atm:.3g} atm"
-    if atm >= 1e-3:
+    if atm >= 1e-2:
         return f"{atm / _PRESSURE['%']:.3g} %"
-    return f"{pressure_ppm(atm):.3g} ppm"
+    ppm = pressure_ppm(atm)
+    return f"{ppm:.0f} ppm" if ppm >= 100 else f"{ppm:.3g} ppm"

@@ -89,7 +89,15 @@ def _fit(text: str, width: int) -> str:
 
 
 def _si(value: float) -> str:
-    return f"{value:+.2f}" if math.isfinite(value) else "—"
+    """A saturation index in 5 cells: ``+0.39``, ``-12.3``."""
+    if not math.isfinite(value):
+        return "—"
+    return f"{value:+.2f}" if abs(value) < 9.995 else f"{value:+.1f}" if abs(value) < 99.95 else f"{value:+.0f}"
+
+
+def _delta(value: float) -> str:
+    """A change of saturation index in 5 cells, its sign always written."""
+    return signed(value, 2) if abs(value) < 9.995 else signed(value, 1) if abs(value) < 99.95 else signed(value, 0)
 
 
 def panel_rows(eq: chem.Equilibrium, pinned: chem.Equilibrium | None, gases: tuple[chem.Gas, ...],
@@ -115,9 +123,9 @@ def panel_rows(eq: chem.Equilibrium, pinned: chem.Equilibrium | None, gases: tup
         names = {so.name: printable(so.name) for so in eq.solids}
         name_w = min(max(cell_len(n) for n in names.values()), NAME_MAX)
         formula_w = 0
-        delta_w = 7 if old is not None else 0
-        amount_w = 9
-        fixed = 4 + 1 + 6 + 1 + 1 + amount_w + delta_w
+        delta_w = 6 if old is not None else 0               # " +0.03"
+        amount_w = 8                                        # " 2.23 µM"
+        fixed = 4 + 7 + 1 + amount_w + delta_w              # "[x] ", " +0.39 ", the bar's gap
         if width - fixed - name_w >= BAR_MIN + 14:          # room for the formula too
             formula_w = min(max(cell_len(shown_name(so.formula, utf8)) for so in eq.solids), 14) + 1
         bar_w = width - fixed - name_w - formula_w
@@ -125,9 +133,10 @@ def panel_rows(eq: chem.Equilibrium, pinned: chem.Equilibrium | None, gases: tup
             name_w = max(8, name_w - (BAR_MIN - bar_w))
             bar_w = max(width - fixed - name_w - formula_w, 3)
         bar_w -= 1 - bar_w % 2                              # odd: 0 in the middle
+        half = bar_w // 2
+        scale = (_fit(f"-{SI_SPAN:g}", half) + "0" + f"+{SI_SPAN:g}".rjust(half)) if half >= 3 else " " * bar_w
         head = "    " + _fit("solid", name_w) + (_fit(" formula", formula_w) if formula_w else "")
-        head += f" {'SI':>6} " + _fit(f"-{SI_SPAN:g}", bar_w // 2) + "0" + f"+{SI_SPAN:g}".rjust(bar_w // 2)
-        head += f" {'formed':>{amount_w - 1}}" + (f" {'ΔSI':>6}" if old is not None else "")
+        head += f" {'SI':>5} " + scale + f" {'formed':>{amount_w - 1}}" + (f" {'ΔSI':>5}" if old is not None else "")
         rows.append(PanelRow("head", ((head, ""),)))
         for so in eq.solids:
             allowed = mix.allows(so.name)
@@ -145,13 +154,13 @@ def panel_rows(eq: chem.Equilibrium, pinned: chem.Equilibrium | None, gases: tup
             pieces: list[Piece] = [(mark, "mark" if allowed else "dim"), (_fit(names[so.name], name_w), "")]
             if formula_w:
                 pieces.append((_fit(" " + shown_name(so.formula, utf8), formula_w), "dim"))
-            pieces += [(f" {_si(si):>6} ", tone if si > 0 or formed else ""),
+            pieces += [(f" {_si(si):>5} ", tone if si > 0 or formed else ""),
                        (left, tone), (centre, "dim"), (right, tone),
                        (f" {amount[0]:>{amount_w - 1}}", amount[1])]
             if old is not None:
                 before = old.get(so.name)
-                delta = "new" if before is None else signed(si - before.saturation_index, 2)
-                pieces.append((f" {delta:>6}", "delta"))
+                delta = "new" if before is None else _delta(si - before.saturation_index)
+                pieces.append((f" {delta:>5}", "delta"))
             rows.append(PanelRow("solid", tuple(pieces), so.name))
     rows.append(PanelRow("blank", (("", ""),)))
     rows.append(PanelRow("group", (("Gases over the solution", ""),)))

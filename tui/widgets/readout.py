@@ -92,10 +92,11 @@ def speciation_lines(eq: chem.Equilibrium, pinned: chem.Equilibrium | None, widt
     names = {st.name for st in eq.systems}
     if any(name in names for name in WATER_SYSTEMS):
         unit = " mg/L CaCO₃" if utf8 else " mg/L CaCO3"
-        water: list[Piece] = [("alk. ", "readout--dim"), (_mg_l(eq.alkalinity_mg_l), "")]
+        water: list[list[Piece]] = [[("alk. ", "readout--dim"), (_mg_l(eq.alkalinity_mg_l), "")]]
         if eq.hardness_mg_l is not None:
-            water += [("  hardness ", "readout--dim"), (_mg_l(eq.hardness_mg_l), "")]
-        lines += _flow([water + [(unit, "readout--dim")]], width)
+            water.append([("hardness ", "readout--dim"), (_mg_l(eq.hardness_mg_l), "")])
+        water[-1].append((unit, "readout--dim"))
+        lines += _flow(water, width, " ")
     rest: list[list[Piece]] = []
     if eq.solids:
         n = len(eq.supersaturated)
