@@ -126,6 +126,8 @@ async def test_the_readout_shows_free_ion_levels_water_numbers_and_supersaturati
         assert len(eq.supersaturated) == 3                      # calcite, aragonite, dolomite at 45 °C
         assert "3 supersaturated" in readout
         assert "precip. off" in readout and "CO₂ held 420 µatm" in readout
+        if size[0] >= 110:                                      # flowed to the panel's width from the start
+            assert "3 supersaturated  precip. off  CO₂ held 420 µatm" in readout
         chart = app.query_one(PlotArea)                         # the band grew; the chart still plots
         assert chart.content_size.height >= MIN_HEIGHT and _inside(app.query_one("Footer"), app)
 

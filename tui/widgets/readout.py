@@ -191,6 +191,8 @@ class Readout(Widget):
         if eq is None:
             return
         width = self.content_size.width
+        if not width:                                   # not laid out yet: draw now, and again once it is
+            self.call_after_refresh(self._redraw)
         digits = big_digits(f"{eq.pH:.2f}")
         side: list[list[Piece]] = [[(f"pH  {eq.pH:.3f}", "readout--bold")], [(f"pOH {eq.pOH:.3f}", "")], []]
         if self.ph_sd is not None:
@@ -216,8 +218,9 @@ class Readout(Widget):
         if n or not eq.cautions or sum(cell_len(t) for t, _ in state + more) <= width:
             state += more                               # "0 warnings" gives way to the cautions when narrow
         lines.append(state)
-        lines += speciation_lines(eq, self.pinned, max(width, 20), self.utf8)
-        if len(lines) != self._rows:                    # more or fewer lines than before: ask for room
+        if width:                                       # flowed to the panel's width, once it has one
+            lines += speciation_lines(eq, self.pinned, width, self.utf8)
+        if width and len(lines) != self._rows:          # more or fewer lines than before: ask for room
             self._rows = len(lines)
             self.post_message(ReadoutRows(len(lines)))
         lines.append([])
