@@ -343,10 +343,10 @@ def _iterate(inp: Inputs, idx: np.ndarray, u: np.ndarray, ionic: np.ndarray, act
                 rows = np.nonzero(blocked)[0]
                 aw[rows, block[rows]] = True
         u[work] = u_new
-        # converged: a full Newton step below 1e-9, or one below 1e-6 that no longer shrinks (the
+        # converged: a full Newton step below 1e-9, or one below 1e-7 that no longer shrinks (the
         # answer is then set to round-off: a charge balance of molar ions around 1e-7 M of H+)
         step_now = alpha * big
-        small = (alpha == 1.0) & ((step_now < STEP_TOL) | ((step_now < 1e-6) & (step_now > 0.1 * last_step[work])))
+        small = (alpha == 1.0) & ((step_now < STEP_TOL) | ((step_now < 1e-7) & (step_now > 0.1 * last_step[work])))
         last_step[work] = step_now
         if ne:
             lam_e[work] = le
@@ -360,7 +360,10 @@ def _iterate(inp: Inputs, idx: np.ndarray, u: np.ndarray, ionic: np.ndarray, act
                 r = r + le @ inp.eq_rows
             if nq:
                 r = r + ls @ inp.sol_a
-            near = (np.abs(r) / np.maximum(c @ abs_nu + np.abs(tot), 1e-300)).max(axis=1) < 1e-2
+            rel = (np.abs(r) / np.maximum(c @ abs_nu + np.abs(tot), 1e-300)).max(axis=1)
+            # once close, stay with the whole-system step (an ionic-strength update itself moves the
+            # balances by a per cent or so; losing the joint step then would cost every other step)
+            near = (rel < 1e-2) | (near_prev[work] & (rel < 0.3))
             i_new = ionic_of(sub, local, c_new, le)
             if sub.fixed_ionic is not None:
                 i_new = sub.fixed_ionic
@@ -570,6 +573,25 @@ def _make_feasible(inp: Inputs, idx, u: np.ndarray) -> np.ndarray:
 def _final(inp: Inputs, idx, u, ionic, active, lam_e, lam_s, conv, iterations) -> Result:
     lng = ln_gamma(inp, idx, ionic)
     c = concentrations(inp, idx, u, lng)
+    nq_ = inp.sol_a.shape[0]
+    if nq_ and active.any():
+        # put every present solid exactly on SI = 0: the smallest shift of u weighted by each component's
+        # free amount (so it lands on trace components, whose rows the last Newton step resolved least)
+        u = u.copy()
+        weight = np.maximum(c @ (inp.nu * inp.nu), 1e-300)             # (P, nc): Hessian diagonal
+        for i in np.nonzero(active.any(axis=1))[0]:
+            rows = np.nonzero(active[i])[0]
+            a = inp.sol_a[rows]
+            r = inp.sol_b[idx[i], rows] - a @ u[i]
+            if np.all(np.abs(r) < 1e-14):
+                continue
+            winv = 1.0 / weight[i]
+            m = (a * winv) @ a.T
+            try:
+                u[i] += winv * (a.T @ np.linalg.solve(m, r))
+            except np.linalg.LinAlgError:
+                pass
+        c = concentrations(inp, idx, u, lng)
     if inp.model.ideal:
         ionic = ionic_of(inp, idx, c, lam_e)
     nq = inp.sol_a.shape[0]
