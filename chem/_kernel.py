@@ -346,7 +346,13 @@ def _iterate(inp: Inputs, idx: np.ndarray, u: np.ndarray, ionic: np.ndarray, act
         # converged: a full Newton step below 1e-9, or one below 1e-7 that no longer shrinks (the
         # answer is then set to round-off: a charge balance of molar ions around 1e-7 M of H+)
         step_now = alpha * big
-        small = (alpha == 1.0) & ((step_now < STEP_TOL) | ((step_now < 1e-7) & (step_now > 0.1 * last_step[work])))
+        # a component almost wholly held in solids moves its free amount by a step that no longer
+        # changes any balance: weigh each component's step by its free share of its total
+        held = c @ abs_nu
+        share = held / np.maximum(held + np.abs(tot), 1e-300)
+        impact = alpha * (np.abs(d) * np.maximum(share, 1e-12)).max(axis=1)
+        small = (alpha == 1.0) & ((step_now < STEP_TOL) | (impact < STEP_TOL)
+                                  | ((step_now < 1e-7) & (step_now > 0.1 * last_step[work])))
         last_step[work] = step_now
         if ne:
             lam_e[work] = le
@@ -428,7 +434,8 @@ def solve(inp: Inputs, u0: np.ndarray, i0: np.ndarray, *, max_iter: int = 200,
     u = _make_feasible(inp, idx, u)
     freeze = inp.fixed_ionic is not None
     with np.errstate(over="ignore", under="ignore", invalid="ignore", divide="ignore"):
-        budget = min(max_iter, 60)
+        # with the ionic strength free the nested search backs this stage up; without, it has it all
+        budget = min(max_iter, 60) if not (freeze or inp.model.ideal) else max_iter
         u, ionic, active, lam_e, lam_s, conv, its = _iterate(inp, idx, u, ionic, active,
                                                               freeze_ionic=freeze, max_iter=budget)
         iterations = its
