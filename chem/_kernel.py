@@ -725,7 +725,8 @@ def starting_values(inp: Inputs, lay: Layout, *, h_fixed: np.ndarray | None = No
         comps &= ~np.any(inp.eq_rows != 0, axis=0) if inp.eq_rows.size else True
         if sweeps and nu.shape[0] > 2 + lay.mask.sum() + lay.ion_cols.size:
             pos = np.where(nu > 0, nu, 0.0)
-            for _ in range(sweeps):
+            h_free = h_fixed is None and not (inp.eq_rows.size and np.any(inp.eq_rows[:, 0] != 0))
+            for sweep in range(sweeps):
                 c = concentrations(inp, idx, u, lng)
                 m = c @ pos
                 m2 = c @ (pos * pos)
@@ -733,6 +734,16 @@ def starting_values(inp: Inputs, lay: Layout, *, h_fixed: np.ndarray | None = No
                 step = np.log(tot / np.maximum(m, 1e-300)) / nbar
                 step = np.clip(np.where(np.isfinite(step), step, 0.0), -200.0, 200.0)
                 u[:, comps] += step[:, comps]
+                if h_free and sweep % 2 == 1:
+                    # complexes bind and release protons: settle u_H on the proton balance with the
+                    # other components held (it rises strictly with u_H), a few Newton steps
+                    nu_h = nu[:, 0]
+                    for _ in range(6):
+                        c = concentrations(inp, idx, u, lng)
+                        gh = c @ nu_h - tot[:, 0]
+                        dh = c @ (nu_h * nu_h)
+                        du = np.clip(-gh / np.maximum(dh, 1e-300), -4.0, 4.0)
+                        u[:, 0] += np.where(np.isfinite(du), du, 0.0)
             if inp.fixed_ionic is None and not inp.model.ideal:
                 c = concentrations(inp, idx, u, lng)
                 i_all = ionic_of(inp, idx, c)
