@@ -675,7 +675,7 @@ def make_layout(nu: np.ndarray, sys_rows, sys_comp, ion_cols, ion_rows) -> Layou
 
 
 def starting_values(inp: Inputs, lay: Layout, *, h_fixed: np.ndarray | None = None,
-                    sweeps: int = 6) -> tuple[np.ndarray, np.ndarray]:
+                    sweeps: int = 6, x_tol: float = 1e-7) -> tuple[np.ndarray, np.ndarray]:
     """Starting u and I: the acid–base equilibrium with complexes left out, then a few
     log-ratio sweeps that let the complexes take their share of each component.
 
@@ -698,7 +698,7 @@ def starting_values(inp: Inputs, lay: Layout, *, h_fixed: np.ndarray | None = No
         x = None
         for _ in range(1):     # one pass: the Newton iteration corrects the ionic strength quadratically
             lng = ln_gamma(inp, idx, i0)
-            x = _acid_base_x(inp, lay, lng, h_fixed, x)
+            x = _acid_base_x(inp, lay, lng, h_fixed, x, x_tol)
             u[:, 0] = x
             if lay.rows.size:
                 w = (inp.lnk[:, lay.rows] - lng[:, lay.rows] + lay.j[None] * x[:, None, None])
@@ -753,46 +753,51 @@ def starting_values(inp: Inputs, lay: Layout, *, h_fixed: np.ndarray | None = No
     return u, i0
 
 
-def _acid_base_x(inp: Inputs, lay: Layout, lng: np.ndarray, h_fixed, x0=None) -> np.ndarray:
+def _acid_base_x(inp: Inputs, lay: Layout, lng: np.ndarray, h_fixed, x0=None, tol: float = 1e-7) -> np.ndarray:
     """u_H of the acid–base equilibrium at fixed γ (complexes left out): Newton with limited steps
-    kept inside a bracket (the proton balance rises strictly with u_H)."""
+    kept inside a bracket (the proton balance rises strictly with u_H); points leave as they settle."""
     p = inp.points
     if h_fixed is not None:
         return np.asarray(h_fixed, dtype=float) * np.ones(p)
-    t_h = inp.totals[:, 0]
-    lnk_oh = inp.lnk[:, lay.oh_row] - lng[:, lay.oh_row]
-    lng_h = lng[:, 0]
+    t_h_all = inp.totals[:, 0]
+    lnk_oh_all = inp.lnk[:, lay.oh_row] - lng[:, lay.oh_row]
+    lng_h_all = lng[:, 0]
     if lay.rows.size:
-        w0 = np.where(lay.mask[None], inp.lnk[:, lay.rows] - lng[:, lay.rows], -np.inf)
-        tot = inp.totals[:, lay.comp]
+        w0_all = np.where(lay.mask[None], inp.lnk[:, lay.rows] - lng[:, lay.rows], -np.inf)
+        tot_all = inp.totals[:, lay.comp]
         jj = lay.j[None]
+    x = np.full(p, -7.0 * _LN10) if x0 is None else np.array(x0, dtype=float)
     lo = np.full(p, -60.0)
     hi = np.full(p, 25.0)
-    x = np.full(p, -7.0 * _LN10) if x0 is None else np.array(x0, dtype=float)
+    work = np.arange(p)
     for _ in range(80):
-        hc = np.exp(x - lng_h)
-        ohc = np.exp(lnk_oh - x)
-        f = hc - ohc - t_h
+        xw = x[work]
+        hc = np.exp(xw - lng_h_all[work])
+        ohc = np.exp(lnk_oh_all[work] - xw)
+        f = hc - ohc - t_h_all[work]
         df = hc + ohc
         if lay.rows.size:
-            w = w0 + jj * x[:, None, None]
+            w = w0_all[work] + jj * xw[:, None, None]
             w -= w.max(axis=2, keepdims=True)
             e = np.exp(w)
             s0 = e.sum(axis=2)
             ej = e * jj
             m1 = ej.sum(axis=2) / s0
             m2 = (ej * jj).sum(axis=2) / s0
-            f = f + (tot * m1).sum(axis=1)
-            df = df + (tot * np.maximum(m2 - m1 * m1, 0.0)).sum(axis=1)
-        lo = np.where(f < 0, x, lo)
-        hi = np.where(f > 0, x, hi)
-        step = np.clip(-f / df, -3.0, 3.0)
-        x_new = x + step
-        bad = ~np.isfinite(x_new) | (x_new <= lo) | (x_new >= hi)
-        x_new = np.where(bad, 0.5 * (lo + hi), x_new)
-        done = np.all(np.abs(x_new - x) < 1e-7)
-        x = x_new
-        if done:
+            tw = tot_all[work]
+            f = f + (tw * m1).sum(axis=1)
+            df = df + (tw * np.maximum(m2 - m1 * m1, 0.0)).sum(axis=1)
+        low, high = lo[work], hi[work]
+        low = np.where(f < 0, xw, low)
+        high = np.where(f > 0, xw, high)
+        x_new = xw + np.clip(-f / df, -3.0, 3.0)
+        bad = ~np.isfinite(x_new) | (x_new <= low) | (x_new >= high)
+        x_new = np.where(bad, 0.5 * (low + high), x_new)
+        lo[work], hi[work] = low, high
+        x[work] = x_new
+        keep = np.abs(x_new - xw) >= tol
+        work = work[keep]
+        if work.size == 0:
             break
     return x
 
