@@ -541,24 +541,22 @@ def _make_feasible(inp: Inputs, idx, u: np.ndarray) -> np.ndarray:
     nc = inp.nu.shape[1]
     pinned = np.zeros(nc, dtype=bool)
     if ne:
+        # the smallest change of the non-H components in the equalities (H only for a row that holds
+        # nothing else, such as a pH-stat's); a gas bringing in several components shares it out
         e = inp.eq_rows
-        piv = []
-        for k in range(ne):
-            order = np.argsort(-np.abs(e[k]))
-            choice = next((j for j in order if e[k, j] != 0 and j not in piv and j != 0), None)
-            if choice is None:
-                choice = next((j for j in order if e[k, j] != 0 and j not in piv), None)
-            piv.append(choice)
-        piv = np.array(piv)
-        sub = e[:, piv]
+        cols = np.any(e[:, 1:] != 0, axis=0)
+        use = np.concatenate([[False], cols])
+        h_only = ~np.any(e[:, 1:] != 0, axis=1)
+        if h_only.any():
+            use[0] = True
+        sub = e[:, use]
         resid = inp.eq_rhs[idx] - u @ e.T
         try:
-            delta = np.linalg.solve(sub, resid.T).T
+            delta = (sub.T @ np.linalg.solve(sub @ sub.T, resid.T)).T
         except np.linalg.LinAlgError:
             delta = np.linalg.lstsq(sub, resid.T, rcond=None)[0].T
         u = u.copy()
-        u[:, piv] += delta
-        pinned[piv] = True
+        u[:, use] += delta
         pinned |= np.any(e != 0, axis=0)
     nq = inp.sol_a.shape[0]
     if nq:
