@@ -32,7 +32,7 @@ from textual.screen import Screen
 from textual.theme import Theme
 from textual.timer import Timer
 from textual.widget import MountError
-from textual.widgets import Footer, Static
+from textual.widgets import Footer, Input, Static
 from textual.worker import Worker, WorkerCancelled, WorkerFailed, WorkerState, get_current_worker
 
 import chem
@@ -72,6 +72,9 @@ HISTORY_LIMIT = 500
 AUTOSAVE_DELAY_S = 0.3
 #: A plot that took longer than this (s) to draw no longer holds back the numbers of the next edit.
 SLOW_PLOT_S = 0.025
+#: While an entry has the focus, a finished solve or plot is shown this much later (s): a repaint of
+#: the panels just before a keystroke made the frame that echoes it wait for the next frame slot.
+TYPING_DEFER_S = 1 / 60
 #: Smallest terminal the four panels fit in (columns, rows); below it a notice asks for a larger window.
 MIN_SIZE = (60, 16)
 
@@ -420,19 +423,28 @@ class ExplorerApp(SpeciationActions, FitActions, App[int]):
         else:
             self.post_message(plotted)
 
+    def _typing_first(self, message: Solved | Plotted, show) -> bool:
+        """Whether to show ``message`` a moment later, so that typing in an entry echoes first."""
+        if getattr(message, "_deferred", False) or not isinstance(self.focused, Input):
+            return False
+        message._deferred = True
+        self.set_timer(TYPING_DEFER_S, lambda: show(message))
+        return True
+
     @on(Solved)
     def _show_result(self, message: Solved) -> None:
-        if message.generation == self._generation:
+        if message.generation == self._generation and not self._typing_first(message, self._show_result):
             self.query_one(FlaskList).release()
             self.capacity = message.capacity
             self.result = message.result
             self._update_keys()
             if message.plot is not None:
+                message.plot._deferred = True           # shown with the numbers, now
                 self._show_plot(message.plot)
 
     @on(Plotted)
     def _show_plot(self, message: Plotted) -> None:
-        if message.generation == self._generation:
+        if message.generation == self._generation and not self._typing_first(message, self._show_plot):
             self.query_one(FlaskList).release()
             self.query_one(PlotArea).show(message.image, message.title)
 

@@ -384,3 +384,26 @@ def test_the_bar_scale_is_symmetric():
         left, centre, right = si_bar(0.0, width, utf8=True)
         assert len(left) == len(right) == (width - 1) // 2 and set(left + right) == {" "}
         assert not math.isnan(len(centre))
+
+
+# -- typing first --------------------------------------------------------------------------------------
+
+async def test_a_result_arriving_while_an_entry_has_the_focus_waits_a_frame(acetate_buffer, settle, library):
+    from tui.app import TYPING_DEFER_S
+    from tui.messages import Solved
+
+    app = ExplorerApp(acetate_buffer)
+    other = chem.solve(acetate_buffer.with_temperature(30.0))
+    async with app.run_test(size=(120, 40)) as pilot:
+        await settle(pilot)
+        before = app.result
+        await pilot.press("enter")                      # the amount editor has the focus
+        app.post_message(Solved(app._generation, other))
+        await pilot.pause()
+        assert app.result is before                     # the next keystroke's echo goes first
+        await pilot.pause(TYPING_DEFER_S * 4)
+        assert app.result is other
+        await pilot.press("escape")                     # no entry: shown at once
+        app.post_message(Solved(app._generation, before))
+        await pilot.pause()
+        assert app.result is before
