@@ -551,12 +551,24 @@ def _make_feasible(inp: Inputs, idx, u: np.ndarray) -> np.ndarray:
             use[0] = True
         sub = e[:, use]
         resid = inp.eq_rhs[idx] - u @ e.T
-        try:
-            delta = (sub.T @ np.linalg.solve(sub @ sub.T, resid.T)).T
-        except np.linalg.LinAlgError:
-            delta = np.linalg.lstsq(sub, resid.T, rcond=None)[0].T
         u = u.copy()
-        u[:, use] += delta
+        # weighted by the inverse of each component's total: the correction goes to the components a gas
+        # supplies (totals near zero, free amounts unknown), not to those the ingredients fix
+        winv = 1.0 / np.maximum(np.abs(inp.totals[idx][:, use]), 1e-250)       # (P, k)
+        winv /= winv.max(axis=1, keepdims=True)
+        for i in range(u.shape[0]) if u.shape[0] <= 64 else ():
+            m = (sub * winv[i]) @ sub.T
+            try:
+                u[i, use] += winv[i] * (sub.T @ np.linalg.solve(m, resid[i]))
+            except np.linalg.LinAlgError:
+                u[i, use] += np.linalg.lstsq(sub, resid[i], rcond=None)[0]
+        if u.shape[0] > 64:
+            m = np.einsum("kj,pj,lj->pkl", sub, winv, sub)
+            try:
+                lam = np.linalg.solve(m, resid[:, :, None])[:, :, 0]
+            except np.linalg.LinAlgError:
+                lam = np.stack([np.linalg.lstsq(m[i], resid[i], rcond=None)[0] for i in range(m.shape[0])])
+            u[:, use] += winv * (lam @ sub)
         pinned |= np.any(e != 0, axis=0)
     nq = inp.sol_a.shape[0]
     if nq:
