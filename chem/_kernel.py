@@ -551,12 +551,24 @@ def _make_feasible(inp: Inputs, idx, u: np.ndarray) -> np.ndarray:
             use[0] = True
         sub = e[:, use]
         resid = inp.eq_rhs[idx] - u @ e.T
-        try:
-            delta = (sub.T @ np.linalg.solve(sub @ sub.T, resid.T)).T
-        except np.linalg.LinAlgError:
-            delta = np.linalg.lstsq(sub, resid.T, rcond=None)[0].T
         u = u.copy()
-        u[:, use] += delta
+        # weighted by the inverse of each component's total: the correction goes to the components a gas
+        # supplies (totals near zero, free amounts unknown), not to those the ingredients fix
+        winv = 1.0 / np.maximum(np.abs(inp.totals[idx][:, use]), 1e-250)       # (P, k)
+        winv /= winv.max(axis=1, keepdims=True)
+        for i in range(u.shape[0]) if u.shape[0] <= 64 else ():
+            m = (sub * winv[i]) @ sub.T
+            try:
+                u[i, use] += winv[i] * (sub.T @ np.linalg.solve(m, resid[i]))
+            except np.linalg.LinAlgError:
+                u[i, use] += np.linalg.lstsq(sub, resid[i], rcond=None)[0]
+        if u.shape[0] > 64:
+            m = np.einsum("kj,pj,lj->pkl", sub, winv, sub)
+            try:
+                lam = np.linalg.solve(m, resid[:, :, None])[:, :, 0]
+            except np.linalg.LinAlgError:
+                lam = np.stack([np.linalg.lstsq(m[i], resid[i], rcond=None)[0] for i in range(m.shape[0])])
+            u[:, use] += winv * (lam @ sub)
         pinned |= np.any(e != 0, axis=0)
     nq = inp.sol_a.shape[0]
     if nq:
@@ -673,7 +685,7 @@ def make_layout(nu: np.ndarray, sys_rows, sys_comp, ion_cols, ion_rows) -> Layou
 
 
 def starting_values(inp: Inputs, lay: Layout, *, h_fixed: np.ndarray | None = None,
-                    sweeps: int = 6, x_tol: float = 1e-7) -> tuple[np.ndarray, np.ndarray]:
+                    sweeps: int = 12, x_tol: float = 1e-7) -> tuple[np.ndarray, np.ndarray]:
     """Starting u and I: the acid–base equilibrium with complexes left out, then a few
     log-ratio sweeps that let the complexes take their share of each component.
 
@@ -724,24 +736,28 @@ def starting_values(inp: Inputs, lay: Layout, *, h_fixed: np.ndarray | None = No
         if sweeps and nu.shape[0] > 2 + lay.mask.sum() + lay.ion_cols.size:
             pos = np.where(nu > 0, nu, 0.0)
             h_free = h_fixed is None and not (inp.eq_rows.size and np.any(inp.eq_rows[:, 0] != 0))
+            pos2 = pos * pos
+            nu_h = nu[:, 0]
+            nu_h2 = nu_h * nu_h
             for sweep in range(sweeps):
                 c = concentrations(inp, idx, u, lng)
                 m = c @ pos
-                m2 = c @ (pos * pos)
-                nbar = np.maximum(m2 / np.maximum(m, 1e-300), 1.0)
+                nbar = np.maximum((c @ pos2) / np.maximum(m, 1e-300), 1.0)
                 step = np.log(tot / np.maximum(m, 1e-300)) / nbar
                 step = np.clip(np.where(np.isfinite(step), step, 0.0), -200.0, 200.0)
                 u[:, comps] += step[:, comps]
-                if h_free and sweep % 2 == 1:
+                moved = np.abs(step[:, comps]).max() if comps.any() else 0.0
+                if h_free:
                     # complexes bind and release protons: settle u_H on the proton balance with the
                     # other components held (it rises strictly with u_H), a few Newton steps
-                    nu_h = nu[:, 0]
-                    for _ in range(6):
+                    for _ in range(3):
                         c = concentrations(inp, idx, u, lng)
-                        gh = c @ nu_h - tot[:, 0]
-                        dh = c @ (nu_h * nu_h)
-                        du = np.clip(-gh / np.maximum(dh, 1e-300), -4.0, 4.0)
-                        u[:, 0] += np.where(np.isfinite(du), du, 0.0)
+                        du = np.clip(-(c @ nu_h - tot[:, 0]) / np.maximum(c @ nu_h2, 1e-300), -4.0, 4.0)
+                        du = np.where(np.isfinite(du), du, 0.0)
+                        u[:, 0] += du
+                        moved = max(moved, float(np.abs(du).max()))
+                if moved < 0.05:       # close enough for Newton: stop sweeping
+                    break
             if inp.fixed_ionic is None and not inp.model.ideal:
                 c = concentrations(inp, idx, u, lng)
                 i_all = ionic_of(inp, idx, c)
