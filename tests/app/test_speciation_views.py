@@ -413,3 +413,70 @@ async def test_a_result_arriving_while_an_entry_has_the_focus_waits_a_frame(acet
         app.post_message(now)
         await pilot.pause()
         assert app.result is before and not getattr(now, "_deferred", False)
+
+
+# -- text from a shared preset ------------------------------------------------------------------------
+
+ESC = "\x1b]0;owned\x07\x1b[2J\x9b31m\u202e"          # OSC title, clear screen, C1 CSI, bidi override
+MARKUP = "[/][@click=app.quit]x[/]"                   # read as markup, this would crash or act
+
+
+def _toml(text: str) -> str:
+    return '"' + "".join(ch if ch.isprintable() else f"\\u{ord(ch):04x}" for ch in text) + '"'
+
+
+def _hostile_speciation() -> chem.Mixture:
+    """A shared preset whose metal, ligand, complex, solid and gas names carry escapes and markup."""
+    metal = f"M{ESC}{MARKUP}^2+"
+    lig = f"L{ESC}-"
+    text = f'''format = 1
+    title = "hostile speciation"
+    [[ingredient]]
+    name = {_toml("metal salt" + ESC[:5])}
+    conc = "1 mM"
+    [[ingredient]]
+    name = "ligand salt"
+    conc = "2 mM"
+    [[custom]]
+    name = {_toml("metal salt" + ESC[:5])}
+    pKa = []
+    species = [{_toml(metal)}]
+    charge_fully_protonated = 2
+    protons = 0
+    counter_ions = {{ "Cl-" = 2 }}
+    [[custom]]
+    name = "ligand salt"
+    pKa = [4.0]
+    species = [{_toml("HL" + ESC)}, {_toml(lig)}]
+    charge_fully_protonated = 0
+    protons = 0
+    counter_ions = {{ "Na+" = 1 }}
+    [[custom_complex]]
+    name = {_toml(f"ML{ESC}+")}
+    reaction = {{ {_toml(metal)} = 1, {_toml(lig)} = 1 }}
+    log_K = 3.0
+    [[custom_solid]]
+    name = {_toml(f"solid{ESC}{MARKUP}")}
+    reaction = {{ {_toml(metal)} = 1, "OH-" = 2 }}
+    log_K = -12.0
+    [[custom_gas]]
+    name = {_toml(f"gas{ESC}")}
+    reaction = {{ {_toml("HL" + ESC)} = 1 }}
+    log_K = 1.0
+    '''
+    return chem.loads_preset(text)
+
+
+async def test_names_from_a_shared_preset_are_escaped_in_every_new_view(settle, screen_lines):
+    import unicodedata
+
+    app = ExplorerApp(_hostile_speciation())
+    async with app.run_test(size=(120, 40)) as pilot:
+        for keys in ((), ("l",), ("S",), ("P",), ("G",), ("escape", "p", "t")):
+            await pilot.press(*keys)
+            await settle(pilot)
+            lines = screen_lines(app)
+            assert not [line for line in lines if any(unicodedata.category(ch) in ("Cc", "Cf") for ch in line)]
+            assert app.is_running, keys
+        text = "\n".join(screen_lines(app))
+        assert "\\x1b]0;owned" in text                        # shown, escaped
