@@ -118,6 +118,8 @@ def test_visible_runs_skip_what_lies_on_the_floor():
     ({"LC_ALL": "C", "LANG": "en_US.UTF-8"}, False),
     ({"LC_CTYPE": "de_DE.utf8"}, True),
     ({}, False),
+    ({"LANG": "C", "LC_CTYPE": "C.UTF-8"}, False),          # Python's coercion under LANG=C
+    ({"LANG": "en_US.UTF-8", "LC_CTYPE": "C.UTF-8"}, True),
 ])
 def test_locale_decides_whether_the_terminal_shows_utf8(env, expected):
     assert locale_is_utf8(env) is expected

@@ -75,9 +75,11 @@ def test_the_speciation_views_fit_a_real_terminal(tmp_path, width, height):
         pane.keys("CO2", literal=True)
         pane.wait_for(r"1 match")
         pane.keys("Enter")
-        pane.wait_for(r"hold CO₂ at")
+        pane.wait_for(r"hold CO₂ at: 420 uatm")            # the air's pressure, offered
         pane.keys("C-u")
+        pane.wait_for(r"hold CO₂ at: e\.g\.")
         pane.keys("5 %", literal=True)
+        pane.wait_for(r"hold CO₂ at: 5 %")
         pane.keys("Enter")
         text = pane.wait_for(r"CO₂ held 5 %").string
         _panels_closed(text, width)
@@ -90,5 +92,24 @@ def test_the_speciation_views_fit_a_real_terminal(tmp_path, width, height):
         pane.keys("d")
         pane.wait_for(r"EXIT=0")
         assert "Traceback" not in pane.text()
+    finally:
+        pane.close()
+
+
+def test_under_lang_c_the_names_are_ascii_in_a_real_terminal(tmp_path):
+    # Python itself sets LC_CTYPE=C.UTF-8 under LANG=C (locale coercion); the explorer still sees C.
+    pane = Pane({"PROTOMIX_DATA_DIR": str(tmp_path / "data"), "TERM": "xterm-256color"}, 80, 24)
+    try:
+        pane.keys(f"cd {ROOT} && LANG=C LC_ALL= LC_CTYPE= {sys.executable} -m tui {PRESET}; echo EXIT=$?", "Enter")
+        text = pane.wait_for(r"hardness \d+ mg/L CaCO3").string
+        assert "CO2 held 420 uatm" in text and "CaCO₃" not in text
+        pane.keys("l")
+        text = pane.wait_for(r"Species by system").string
+        assert re.search(r"Ca\^2\+\s+92\.\d%", text) and "²" not in text
+        pane.keys("S")
+        text = pane.wait_for(r"Solids · precipitation off").string
+        assert re.search(r"\[ \] calcite\s+\+0\.\d\d\s+\|=", text) and "█" not in text
+        pane.keys("C-q")
+        pane.wait_for(r"EXIT=0")
     finally:
         pane.close()

@@ -122,7 +122,7 @@ class GasPicker(PickerScreen["GasChange | None"]):
         self.query_one("#gas-hint", Label).update(
             "units: atm, bar, kPa, Pa, mmHg, uatm, ppm or % · enter holds"
             + (" · empty releases it" if held is not None else "") + " · esc back")
-        entry.focus()
+        self.set_focus(entry)               # at once: keys typed ahead (over SSH) land in the pressure
 
     @on(Input.Changed, "#gas-pressure")
     def _check(self, event: Input.Changed) -> None:

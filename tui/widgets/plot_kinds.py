@@ -59,9 +59,16 @@ def locale_is_utf8(environ: Mapping[str, str] | None = None) -> bool:
     env = os.environ if environ is None else environ
     for var in ("LC_ALL", "LC_CTYPE", "LANG"):
         value = env.get(var)
+        if var == "LC_CTYPE" and value in _COERCED and not env.get("LC_ALL"):
+            continue                # Python's own doing under LANG=C (PEP 538), not the terminal's
         if value:
             return "utf-8" in value.lower() or "utf8" in value.lower()
     return False
+
+
+#: What Python 3.7+ sets LC_CTYPE to at start-up when the locale is "C" or "POSIX" (PEP 538 locale
+#: coercion): under ``LANG=C`` the process sees ``LC_CTYPE=C.UTF-8`` although the user asked for C.
+_COERCED = frozenset({"C.UTF-8", "C.utf8", "UTF-8"})
 
 
 @dataclass(frozen=True)
