@@ -36,7 +36,7 @@ from textual.widgets import Footer, Static
 from textual.worker import Worker, WorkerCancelled, WorkerFailed, WorkerState, get_current_worker
 
 import chem
-from chem.activity import MODELS
+from chem import ACTIVITY_MODELS as MODELS
 from tui import storage
 from tui.fit_actions import FitActions
 from tui.messages import AutosaveWritten, Plotted, Solved

@@ -5,7 +5,7 @@
 * ``i``: show or hide the uncertainty: a ± beside the pH in the readout (first order, from the
   constants' uncertainties) and a 95 % band on the titration plot.
 
-Numbers come from :mod:`chem.fit` and :mod:`chem.uncertainty`; this module only wires them.
+Numbers come from chem (:func:`chem.fit_titration`, :func:`chem.propagate`); this module only wires them.
 """
 
 from __future__ import annotations
@@ -87,9 +87,7 @@ class FitActions:
         if not self.show_uncertainty or result is None or not result.converged:
             readout.ph_sd = None
             return
-        from chem.uncertainty import propagate
-
         try:
-            readout.ph_sd = propagate(result).pH_sd
+            readout.ph_sd = chem.propagate(result).pH_sd
         except chem.ChemError:
             readout.ph_sd = None

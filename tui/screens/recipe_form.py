@@ -38,15 +38,15 @@ from textual.widgets import Button, Input, Label, Static
 from textual.worker import Worker, WorkerState, get_current_worker
 
 import chem
-from chem.limits import STANDARD_TEMPERATURE_C
+from chem import STANDARD_TEMPERATURE_C
 from tui.screens.base import Dialog
 from tui.text import printable
 from tui.widgets.curve_kinds import read_celsius, read_ph
 
-if TYPE_CHECKING:                    # chem.recipe needs scipy.optimize (~0.5 s): loaded in the worker only
-    from chem.recipe import Recipe
+if TYPE_CHECKING:                    # the recipe designer needs scipy.optimize (~0.5 s): loaded in the worker only
+    from chem import Recipe
 
-#: The bench forms of a recipe, as :data:`chem.recipe.FORMS` (not imported here: it loads scipy).
+#: The bench forms of a recipe, as the recipe designer names them (not asked of chem here: that loads scipy).
 FORMS = ("reagents", "titrant", "stocks")
 #: Wait after a keystroke before designing (s): a burst of typing starts one design, not one per key.
 DESIGN_DELAY = 0.12

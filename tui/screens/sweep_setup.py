@@ -22,7 +22,6 @@ from textual.containers import Horizontal, Vertical
 from textual.widgets import Input, Label
 
 import chem
-from chem.curves import ingredient_index
 from tui.screens.base import Dialog
 from tui.screens.recipe_form import Cycler, first_problem, named, show_text
 from tui.widgets.curve_kinds import MAX_SWEEP_POINTS, SweepSettings, default_sweep
@@ -67,7 +66,7 @@ class SweepSetup(Dialog["SweepSettings | None"]):
 
     def _choice_for(self, vary: str) -> str | None:
         try:
-            return self.mixture.ingredients[ingredient_index(self.mixture, vary)].reagent.name
+            return self.mixture.ingredients[chem.ingredient_index(self.mixture, vary)].reagent.name
         except chem.ChemError:
             return None
 

@@ -4,7 +4,7 @@ API:
     ``TitrationSetup(mixture, settings=None, library=None)``, a ModalScreen that dismisses
     with a :class:`~tui.widgets.curve_kinds.TitrationSettings` (enter, once every field is
     valid) or None (escape). ``settings`` fills the fields (None: 0.1 M NaOH into 25 mL up to
-    50 mL). Every field is read by chem (the titrant by :func:`chem.curves.find_reagent`, so a
+    50 mL). Every field is read by chem (the titrant by :func:`chem.find_reagent`, so a
     custom reagent of ``mixture`` counts; amounts by :func:`chem.parse_concentration` and
     :func:`chem.parse_volume`); a bad entry is marked and explained, and enter is refused.
 

@@ -3,7 +3,7 @@
 These are :class:`~tui.widgets.plot_kinds.PlotKind` objects like the ones in
 :data:`~tui.widgets.plot_kinds.PLOT_KINDS`, drawn the same way (plotext text
 built in a worker thread, legend lines under it). Every number comes from
-:mod:`chem.curves`; amounts and volumes typed by the user are read by
+chem (:func:`chem.titration`, :func:`chem.sweep` ...); amounts and volumes typed by the user are read by
 :func:`chem.parse_concentration` and :func:`chem.parse_volume`. This module
 only draws.
 
@@ -15,7 +15,7 @@ API:
     ``TitrationSettings`` / ``SweepSettings``: what the setup forms return (text as typed);
     ``default_titration(result)`` / ``default_sweep(mixture)``: the settings used when none are set.
     ``read_number(text, what)`` / ``read_celsius(text, what)``: numbers typed in forms (the temperature
-    read and range-checked by :func:`chem.units.parse_temperature`, as in the line commands).
+    read and range-checked by :func:`chem.parse_temperature`, as in the line commands).
     A ``None`` setting means "the default for the mixture on display", decided at build time.
 
 The explorer (``tui/app.py``) lists these after :data:`PLOT_KINDS`, imports this module on first
@@ -36,9 +36,7 @@ import numpy as np
 from textual.worker import NoActiveWorker, get_current_worker
 
 import chem
-import chem.units
-from chem import curves
-from chem.limits import PH_MAX, PH_MIN, check_ph, neutral_ph, ph_grid
+from chem import PH_MAX, PH_MIN, check_ph, neutral_ph, ph_grid
 from tui.widgets.plot_kinds import (_BOX_TO_ASCII, RGB, Drawing, LegendLine, PlotKind, PlotRequest, draw,
                                     figure_text, grid_points, simplify)
 from tui.widgets.plot_kinds import draw_kind  # noqa: F401  (re-exported: one entry point for every kind)
@@ -86,22 +84,22 @@ def read_number(text: str, what: str) -> float:
 
 
 def read_ph(text: str, what: str = "pH") -> float:
-    """A pH typed into a form, on the pH scale every command shares (:mod:`chem.limits`)."""
+    """A pH typed into a form, on the pH scale every command shares (:func:`chem.check_ph`)."""
     return check_ph(read_number(text, what), what)
 
 
 def read_celsius(text: str, what: str = "temperature") -> float:
     """A temperature in °C typed as ``37``, ``37 °C``, ``37C`` or ``37 ℃``, within the model's range.
 
-    The same reading and the same range as every line command (:func:`chem.units.parse_temperature`).
+    The same reading and the same range as every line command (:func:`chem.parse_temperature`).
     """
-    return chem.units.parse_temperature(text, what)
+    return chem.parse_temperature(text, what)
 
 
 def _positive_volume(text: str, what: str) -> float:
     litres = chem.parse_volume(text)
     if not litres > 0:
-        raise curves.CurveError(f"{what}: must be more than zero (got '{text.strip()}')")
+        raise chem.CurveError(f"{what}: must be more than zero (got '{text.strip()}')")
     return litres
 
 
@@ -121,15 +119,15 @@ class TitrationSettings:
     def titrant(self, mixture: chem.Mixture, library: chem.Library | None = None) -> chem.Reagent:
         """The titrant reagent; raises :class:`chem.ChemError` with a one-line message."""
         if not self.titrant_name.strip():
-            raise curves.CurveError("titrant: give a reagent name, e.g. NaOH")
-        return curves.find_reagent(self.titrant_name.strip(), mixture, library)
+            raise chem.CurveError("titrant: give a reagent name, e.g. NaOH")
+        return chem.find_reagent(self.titrant_name.strip(), mixture, library)
 
     def titrant_conc(self, titrant: chem.Reagent | None) -> float:
         """Stock concentration, mol/L (mass units need the titrant's molar mass)."""
         conc = chem.parse_concentration(self.titrant_conc_text,
                                         molar_mass=None if titrant is None else titrant.molar_mass)
         if not conc > 0:
-            raise curves.CurveError(f"stock concentration: must be more than zero "
+            raise chem.CurveError(f"stock concentration: must be more than zero "
                                     f"(got '{self.titrant_conc_text.strip()}')")
         return conc
 
@@ -174,7 +172,7 @@ class SweepSettings:
 
     def ingredient(self, mixture: chem.Mixture) -> chem.Ingredient:
         """The ingredient that varies; raises :class:`chem.ChemError` if the mixture has none by that name."""
-        return mixture.ingredients[curves.ingredient_index(mixture, self.vary)]
+        return mixture.ingredients[chem.ingredient_index(mixture, self.vary)]
 
     def value(self, text: str, mixture: chem.Mixture, what: str) -> float:
         """One end of the range: mol/L of the ingredient, or °C (checked against the model's range)."""
@@ -187,7 +185,7 @@ class SweepSettings:
         """``points``, if it is a whole number in the range a sweep may ask for."""
         if isinstance(self.points, bool) or not isinstance(self.points, int) or \
                 not 2 <= self.points <= MAX_SWEEP_POINTS:
-            raise curves.CurveError(f"points must be a whole number from 2 to {MAX_SWEEP_POINTS} "
+            raise chem.CurveError(f"points must be a whole number from 2 to {MAX_SWEEP_POINTS} "
                                     f"(got {self.points!r})")
         return self.points
 
@@ -197,7 +195,7 @@ class SweepSettings:
         lo = self.value(self.from_text, mixture, "from")
         hi = self.value(self.to_text, mixture, "to")
         if not hi > lo:
-            raise curves.CurveError(f"'from' must be below 'to' (got {self.from_text.strip()} and "
+            raise chem.CurveError(f"'from' must be below 'to' (got {self.from_text.strip()} and "
                                     f"{self.to_text.strip()})")
         return vary, np.linspace(lo, hi, self.check_points())
 
@@ -212,7 +210,7 @@ def default_sweep(mixture: chem.Mixture, vary: str | None = None) -> SweepSettin
         vary = names[0] if names else "temperature"
     if vary.strip().casefold() == "temperature":
         return SweepSettings("temperature", *DEFAULT_T_RANGE)
-    ingredient = mixture.ingredients[curves.ingredient_index(mixture, vary)]
+    ingredient = mixture.ingredients[chem.ingredient_index(mixture, vary)]
     top = chem.format_molar(2 * ingredient.conc) if ingredient.conc > 0 else DEFAULT_AMOUNT_TOP
     return SweepSettings(ingredient.reagent.name, "0", top)
 
@@ -401,7 +399,7 @@ def _y_most(canvas_rows: int) -> int:
 
 
 def _still_wanted(_fraction: float) -> bool:
-    """``progress`` for chem.curves: stop computing once the worker asking was cancelled."""
+    """``progress`` for chem's curves: stop computing once the worker asking was cancelled."""
     try:
         return not get_current_worker().is_cancelled
     except NoActiveWorker:
@@ -509,7 +507,7 @@ def _guarded(build: Callable[[chem.Equilibrium, PlotRequest], Drawing]) -> Calla
         except chem.ChemError as exc:
             text = "\n".join(textwrap.wrap(str(exc), request.width) + ["Press v to change the curve's settings."])
             drawing = Drawing(text, note=True)
-        except curves.Cancelled:
+        except chem.Cancelled:
             drawing = Drawing("cancelled", note=True)
         return _ascii_drawing(drawing) if request.style.ascii else drawing
 

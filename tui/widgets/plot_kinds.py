@@ -7,7 +7,8 @@ worker thread: building plotext text is pure Python and costs tens of ms, so it
 must stay off the UI thread. New kinds (titration, buffer capacity, ...) are
 added by appending to :data:`PLOT_KINDS`.
 
-All curve data come from :mod:`chem.diagrams`; this module only draws them.
+All curve data come from chem (:func:`chem.distribution`, :func:`chem.log_concentrations`); this
+module only draws them.
 """
 
 from __future__ import annotations
@@ -21,7 +22,6 @@ from typing import Callable, Mapping, Sequence
 import numpy as np
 
 import chem
-from chem import diagrams
 
 RGB = tuple[int, int, int]
 
@@ -290,8 +290,8 @@ def _selected_systems(result: chem.Equilibrium, request: PlotRequest) -> tuple[s
 
 def build_distribution(result: chem.Equilibrium, request: PlotRequest) -> Drawing:
     """Fraction of each species of each (or the selected) system vs pH."""
-    ph = diagrams.default_grid(grid_points(request.width))
-    diagram = diagrams.distribution(result.mixture, ph, ionic_strength=result.ionic_strength,
+    ph = chem.default_grid(grid_points(request.width))
+    diagram = chem.distribution(result.mixture, ph, ionic_strength=result.ionic_strength,
                                     systems=_selected_systems(result, request))
     if not diagram.series:
         return Drawing("No acid–base system in the flask: nothing to distribute.\n"
@@ -303,8 +303,8 @@ def build_distribution(result: chem.Equilibrium, request: PlotRequest) -> Drawin
 
 def build_log_concentration(result: chem.Equilibrium, request: PlotRequest) -> Drawing:
     """log10 of each species' concentration vs pH, with H+ and OH-."""
-    ph = diagrams.default_grid(grid_points(request.width))
-    diagram = diagrams.log_concentrations(result.mixture, ph, ionic_strength=result.ionic_strength)
+    ph = chem.default_grid(grid_points(request.width))
+    diagram = chem.log_concentrations(result.mixture, ph, ionic_strength=result.ionic_strength)
     keep = _selected_systems(result, request)
     curves = [(name, values) for system, names in diagram.systems.items()
               if keep is None or system == "water" or system in keep
