@@ -341,10 +341,8 @@ def _sweep(args, mixture, progress) -> _Result:
         from chem import parse_pressure
 
         def pressure(text, option):
-            if text is not None and text.strip() in ("0", "0.0", "0 atm", "0 %", "0 ppm", "0 uatm"):
-                return 0.0
             try:
-                return parse_pressure(text)
+                return parse_pressure(text, allow_zero=True)
             except Exception as exc:  # noqa: BLE001 - a ChemError with the reason
                 _fail(f"{option}: {exc}")
 
