@@ -774,8 +774,8 @@ class ExplorerApp(PlotActions, FitActions, App[int]):
                     self._sweep = settings
                     self._recompute()
 
-            self.push_screen(SweepSetup(self.mixture, self._sweep or _curves().default_sweep(self.mixture)),
-                             use_sweep)
+            self.push_screen(SweepSetup(self.mixture, self._sweep or _curves().default_sweep(self.mixture),
+                                        **self.sweep_choices()), use_sweep)
             return
 
         def use_titration(settings: TitrationSettings | None) -> None:

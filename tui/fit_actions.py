@@ -35,6 +35,8 @@ class FitActions:
         """``kinds`` with the titration plot replaced by the one showing measured points or the band."""
         if self._overlay_data is None and not self.show_uncertainty:
             return kinds
+        if self._titration is not None and self._titration.track.strip():
+            return kinds                                # a followed pX: measured pH points and band stay off
         from dataclasses import replace
 
         from tui.widgets.fit_plot import Overlay, overlay_kind

@@ -8,6 +8,8 @@
 * ``v`` on one of them opens :class:`tui.screens.held_setup.HeldSetup`: which system or
   solid, and the pH range (default 2–12, chem's :data:`chem.HELD_PH_RANGE`).
 * Palette commands (``ctrl+p``: "forms", "solubility", "saturation") go straight to a plot.
+* The sweep form (``v`` on the sweep) also offers the gases over the flask (their partial
+  pressure varies) and, when solids can form, their saturation indices instead of the pH.
 
 The plots are built in the app's worker thread like every other kind; this module only
 chooses them and wires the form.
@@ -60,6 +62,13 @@ class PlotActions:
         """Show the plot ``kind_id`` (from the command palette)."""
         if kind_id in {k.id for k in self.kinds}:
             self.plot_kind = kind_id                    # its watcher recomputes
+
+    def sweep_choices(self) -> dict[str, list[str]]:
+        """What else a sweep can vary and show: the gases over the flask, its candidate solids (for ``v``)."""
+        result = self.result
+        if result is None:
+            return {"gases": [], "solids": []}
+        return {"gases": [g.name for g in result.gases], "solids": [s.name for s in result.solids]}
 
     def held_setup(self) -> bool:
         """Open the setup form if a pH-held plot is on display; False when another plot is."""

@@ -37,6 +37,7 @@ from textual.worker import NoActiveWorker, get_current_worker
 
 import chem
 from chem import PH_MAX, PH_MIN, check_ph, neutral_ph, ph_grid
+from tui.cli.curve_cmd import p_label
 from tui.widgets.plot_kinds import (_BOX_TO_ASCII, RGB, Drawing, LegendLine, PlotKind, PlotRequest, draw,
                                     figure_text, grid_points, simplify)
 from tui.widgets.plot_kinds import draw_kind  # noqa: F401  (re-exported: one entry point for every kind)
@@ -53,6 +54,8 @@ DEFAULT_T_RANGE = ("5", "50")
 DEFAULT_SWEEP_POINTS = 101
 #: Top of the default sweep of an ingredient whose amount is zero (otherwise twice its amount).
 DEFAULT_AMOUNT_TOP = "10 mM"
+#: Top of the default sweep of a gas not held over the solution (otherwise twice its pressure).
+DEFAULT_GAS_TOP = "1 %"
 #: Most points a sweep may ask for (each is solved; more than the plot shows is wasted).
 MAX_SWEEP_POINTS = 2000
 #: Dilution factors plotted: from undiluted to this.
@@ -61,6 +64,8 @@ DILUTION_TO = 1000.0
 MIN_PH_SPAN = 1.0
 #: The buffer-capacity plot's y axis is scaled to β over this pH range (water dominates outside).
 SCALE_PH = (3.0, 11.0)
+#: Most units of saturation index a sweep's SI plot shows (from the top of the data; SI = 0 always in view).
+SI_SPAN = 20
 #: Cap on the titration points after refinement of its steep parts (keeps a build short).
 MAX_TITRATION_POINTS = 3000
 
@@ -115,6 +120,13 @@ class TitrationSettings:
     """Volume of the flask's mixture titrated, e.g. "25 mL"."""
     to_text: str
     """Last volume of titrant added, e.g. "50 mL"."""
+    track: str = ""
+    """A species whose level pX = −log10 a(X) is plotted instead of the pH (e.g. "Ca^2+"), or ""."""
+
+    @property
+    def level_name(self) -> str:
+        """What the y axis shows: "pH", or the followed species' level ("pCa")."""
+        return p_label(self.track.strip()) if self.track.strip() else "pH"
 
     def titrant(self, mixture: chem.Mixture, library: chem.Library | None = None) -> chem.Reagent:
         """The titrant reagent; raises :class:`chem.ChemError` with a one-line message."""
@@ -157,27 +169,36 @@ def default_titration(result: chem.Equilibrium) -> TitrationSettings:
 
 @dataclass(frozen=True)
 class SweepSettings:
-    """A sweep as the user typed it: what varies (an ingredient or "temperature"), from, to, points."""
+    """A sweep as the user typed it: what varies (an ingredient, "temperature" or a gas), from, to, points,
+    and what is plotted (the pH, or the saturation index of every candidate solid)."""
 
     vary: str
-    """Ingredient name (reagent name, alias or formula) or "temperature"."""
+    """Ingredient name (reagent name, alias or formula), "temperature", or a gas (e.g. "CO2")."""
     from_text: str
-    """Start: an amount ("0 mM") or a temperature ("5", "5 °C")."""
+    """Start: an amount ("0 mM"), a temperature ("5", "5 °C") or a gas pressure ("0", "420 uatm", "1 %")."""
     to_text: str
     points: int = DEFAULT_SWEEP_POINTS
+    show: str = "pH"
+    """What the plot shows: "pH", or "SI" (saturation index of every candidate solid)."""
 
     @property
     def is_temperature(self) -> bool:
         return self.vary.strip().casefold() == "temperature"
+
+    def gas(self, mixture: chem.Mixture) -> chem.Gas | None:
+        """The gas whose partial pressure varies (held over the solution at each value), or None."""
+        return None if self.is_temperature else chem.gas_named(mixture, self.vary.strip())
 
     def ingredient(self, mixture: chem.Mixture) -> chem.Ingredient:
         """The ingredient that varies; raises :class:`chem.ChemError` if the mixture has none by that name."""
         return mixture.ingredients[chem.ingredient_index(mixture, self.vary)]
 
     def value(self, text: str, mixture: chem.Mixture, what: str) -> float:
-        """One end of the range: mol/L of the ingredient, or °C (checked against the model's range)."""
+        """One end of the range: mol/L of the ingredient, °C (checked against the model's range) or atm."""
         if self.is_temperature:
             return read_celsius(text, what)             # chem's reading, range and message
+        if self.gas(mixture) is not None:
+            return chem.parse_pressure(text, allow_zero=True)
         reagent = self.ingredient(mixture).reagent
         return chem.parse_concentration(text, molar_mass=reagent.molar_mass)
 
@@ -191,7 +212,9 @@ class SweepSettings:
 
     def resolve(self, mixture: chem.Mixture) -> tuple[str, np.ndarray]:
         """(what varies, for :func:`chem.sweep`, and the values); raises :class:`chem.ChemError`."""
-        vary = "temperature" if self.is_temperature else self.ingredient(mixture).reagent.name
+        gas = self.gas(mixture)
+        vary = ("temperature" if self.is_temperature else gas.name if gas is not None
+                else self.ingredient(mixture).reagent.name)
         lo = self.value(self.from_text, mixture, "from")
         hi = self.value(self.to_text, mixture, "to")
         if not hi > lo:
@@ -203,13 +226,18 @@ class SweepSettings:
 def default_sweep(mixture: chem.Mixture, vary: str | None = None) -> SweepSettings:
     """The default sweep of ``vary`` (default: the first ingredient, or the temperature in an empty flask).
 
-    An ingredient runs from none to twice its amount; the temperature from 5 to 50 °C.
+    An ingredient runs from none to twice its amount; the temperature from 5 to 50 °C; a gas from
+    none to twice the pressure it is held at (:data:`DEFAULT_GAS_TOP` when it is not held).
     """
     names = [i.reagent.name for i in mixture.ingredients]
     if vary is None:
         vary = names[0] if names else "temperature"
     if vary.strip().casefold() == "temperature":
         return SweepSettings("temperature", *DEFAULT_T_RANGE)
+    gas = chem.gas_named(mixture, vary.strip())
+    if gas is not None:
+        held = next((g.pressure_atm for g in mixture.gases if g.gas.name == gas.name), None)
+        return SweepSettings(gas.name, "0", DEFAULT_GAS_TOP if held is None else f"{2 * held:.3g} atm")
     ingredient = mixture.ingredients[chem.ingredient_index(mixture, vary)]
     top = chem.format_molar(2 * ingredient.conc) if ingredient.conc > 0 else DEFAULT_AMOUNT_TOP
     return SweepSettings(ingredient.reagent.name, "0", top)
@@ -412,25 +440,33 @@ def _still_wanted(_fraction: float) -> bool:
 
 def build_titration(result: chem.Equilibrium, request: PlotRequest,
                     settings: TitrationSettings | None = None) -> Drawing:
-    """pH vs titrant added, with each equivalence point marked and listed under the plot."""
+    """pH (or a followed species' pX) vs titrant added, each equivalence point marked and listed under the plot.
+
+    With ``settings.track`` (e.g. "Ca^2+", a complexometric titration) the y axis is that
+    species' level pX = −log10 a(X) and the equivalence points are those found on it by chem.
+    """
     settings = settings or default_titration(result)
     mixture = result.mixture
     titrant, conc, sample, to = settings.resolve(mixture)
+    track = settings.track.strip() or None
+    level = settings.level_name
     n = grid_points(request.width)
     curve = chem.titration(mixture, titrant, conc, sample, to, points=n,
-                           max_points=max(n, MAX_TITRATION_POINTS), progress=_still_wanted)
+                           max_points=max(n, MAX_TITRATION_POINTS), track=track, progress=_still_wanted)
+    y = curve.level if track else curve.pH
     eqp = curve.equivalence_points
     many = len(eqp) > 1
     marks = [Mark(e.volume_mL, f"EP{i + 1}" if many else "EP") for i, e in enumerate(eqp)]
-    notes = [f"{'EP' + str(i + 1) if many else 'equivalence'} {e.volume_mL:.3f} mL, pH {e.pH:.2f}"
+    notes = [f"{'EP' + str(i + 1) if many else 'equivalence'} {e.volume_mL:.3f} mL, "
+             + (f"{level} {e.level:.2f} (pH {e.pH:.2f})" if track else f"pH {e.pH:.2f}")
              for i, e in enumerate(eqp)] or [f"no clear equivalence point up to {settings.to_text.strip()}"]
     notes += _unconverged(curve.converged)
-    first = _series_line(request, f"pH · {settings.titrant_conc_text.strip()} {titrant.name} into "
+    first = _series_line(request, f"{level} · {settings.titrant_conc_text.strip()} {titrant.name} into "
                                   f"{settings.sample_text.strip()}")
     legend = _notes(first, notes, request)
     x = np.asarray(curve.x)
-    ylim, yticks = ph_axis(curve.pH, _y_most(request.height - len(legend)))
-    return draw_xy(x, curve.pH, request, xlabel="titrant added (mL)", ylabel="pH",
+    ylim, yticks = ph_axis(y, _y_most(request.height - len(legend)))
+    return draw_xy(x, y, request, xlabel="titrant added (mL)", ylabel=level,
                    xlim=(float(x[0]), float(x[-1])), xticks=_x_ticks(request, float(x[0]), float(x[-1]), 5),
                    xtick_label=lambda t: f"{t:g}", ylim=ylim, yticks=yticks, legend=legend, marks=marks)
 
@@ -463,16 +499,27 @@ def build_sweep(result: chem.Equilibrium, request: PlotRequest, settings: SweepS
     mixture = result.mixture
     settings = settings or default_sweep(mixture)
     vary, values = settings.resolve(mixture)
+    gas = settings.gas(mixture)
     curve = chem.sweep(mixture, vary, values, progress=_still_wanted)
     x = np.asarray(curve.x)
     lo, hi = float(x[0]), float(x[-1])
     if settings.is_temperature:
         now, xlabel, label, label_width = mixture.temperature_c, "temperature (°C)", lambda t: f"{t:g}", 4
         now_text = f"now {now:g} °C"
+    elif gas is not None:
+        held = next((g for g in mixture.gases if g.gas.name == gas.name), None)
+        state = next((g for g in result.gases if g.name == gas.name), None)
+        now = held.pressure_atm if held is not None else state.pressure_atm if state is not None else math.nan
+        xlabel, label, label_width = f"{gas.name} partial pressure (atm)", lambda t: f"{t:g}", 7
+        now_text = f"{'held' if held is not None else 'now'} {now:.3g} atm"
     else:
         now = settings.ingredient(mixture).conc
         xlabel, label, label_width = vary, chem.format_molar, 8
         now_text = f"now {chem.format_molar(now)}"
+    if settings.show == "SI":
+        return _sweep_saturation(curve, request, xlabel=xlabel, xlim=(lo, hi),
+                                 xticks=_x_ticks(request, lo, hi, label_width), xtick_label=label,
+                                 mark=Mark(now, now_text))
     notes = [f"pH {curve.pH[0]:.3f} at {settings.from_text.strip()}, {curve.pH[-1]:.3f} at "
              f"{settings.to_text.strip()}", *_unconverged(curve.converged)]
     legend = _notes(_series_line(request, f"pH as {vary} varies"), notes, request)
@@ -480,6 +527,28 @@ def build_sweep(result: chem.Equilibrium, request: PlotRequest, settings: SweepS
     return draw_xy(x, curve.pH, request, xlabel=xlabel, ylabel="pH", xlim=(lo, hi),
                    xticks=_x_ticks(request, lo, hi, label_width), xtick_label=label, ylim=ylim, yticks=yticks,
                    legend=legend, marks=[Mark(now, now_text)])
+
+
+def _sweep_saturation(curve, request: PlotRequest, *, xlabel: str, xlim: tuple[float, float],
+                      xticks: Sequence[float], xtick_label: Callable[[float], str], mark: Mark) -> Drawing:
+    """The saturation index of every candidate solid along a sweep, SI = 0 drawn as a line."""
+    from tui.widgets.line_plot import draw_lines, index_axis   # noqa: PLC0415 - imports this module
+
+    if not curve.solids:
+        return Drawing("No solid can form from this mixture's systems: no saturation index to show.\n"
+                       "Press v and show the pH instead.", note=True)
+    series = [(name, curve.saturation[:, k]) for k, name in enumerate(curve.solids)]
+    ylim, yticks = index_axis([v for _, v in series], _y_most(request.height - 4), SI_SPAN)
+    shown = [(name, v) for name, v in series if np.nanmax(v) > ylim[0]]
+    notes = ["SI = log(IAP/Ksp); above 0 supersaturated"]
+    if len(shown) < len(series):
+        hidden = len(series) - len(shown)
+        notes.append(f"{hidden} solid{'s' * (hidden != 1)} below SI {ylim[0]:g} not drawn")
+    notes += _unconverged(curve.converged)
+    return draw_lines(np.asarray(curve.x), shown, request, xlabel=_say(xlabel, request), xlim=xlim, xticks=xticks,
+                      xtick_label=xtick_label, ylabel="SI", ylim=ylim, yticks=yticks,
+                      marks=[Mark(mark.x, _say(mark.label, request))] if math.isfinite(mark.x) else [],
+                      hlines=(0.0,), notes=notes)
 
 
 def build_dilution(result: chem.Equilibrium, request: PlotRequest) -> Drawing:
@@ -517,6 +586,8 @@ def _guarded(build: Callable[[chem.Equilibrium, PlotRequest], Drawing]) -> Calla
 def titration_kind(settings: TitrationSettings | None = None) -> PlotKind:
     """pH vs titrant added (None: :func:`default_titration` of the mixture on display)."""
     title = "titration" if settings is None else f"titration with {settings.titrant_name.strip()}"
+    if settings is not None and settings.track.strip():
+        title += f" · {settings.level_name}"
     return PlotKind("titration", title, _guarded(lambda r, q: build_titration(r, q, settings)))
 
 
@@ -527,7 +598,8 @@ def capacity_kind() -> PlotKind:
 
 def sweep_kind(settings: SweepSettings | None = None) -> PlotKind:
     """pH vs one ingredient's amount or the temperature (None: :func:`default_sweep`)."""
-    title = "pH sweep" if settings is None else f"pH vs {settings.vary.strip()}"
+    what = "SI" if settings is not None and settings.show == "SI" else "pH"
+    title = "pH sweep" if settings is None else f"{what} vs {settings.vary.strip()}"
     return PlotKind("sweep", title, _guarded(lambda r, q: build_sweep(r, q, settings)))
 
 

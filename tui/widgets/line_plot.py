@@ -65,11 +65,12 @@ def log_axis(arrays: Sequence[np.ndarray], most: int, span: float) -> tuple[tupl
 
 
 def index_axis(arrays: Sequence[np.ndarray], most: int, span: float) -> tuple[tuple[float, float], list[float]]:
-    """A y range for indices around 0 (saturation): 0 always in view, at most ``span`` tall, the top kept."""
+    """A y range for indices around 0 (saturation): the top of the data kept, about ``span`` tall below it,
+    and never less than -1 to 1 (0, the saturated state, is always in view)."""
     values = _finite(arrays)
     hi = max(float(values.max()) if values.size else 1.0, 1.0)
     lo = min(float(values.min()) if values.size else -1.0, -1.0)
-    lo = max(lo, hi - span)
+    lo = min(max(lo, hi - span), -1.0)
     return _whole_ticks(lo, hi, most)
 
 

@@ -27,7 +27,7 @@ from dataclasses import dataclass
 import numpy as np
 
 import chem
-from tui.widgets.curve_kinds import Mark, _guarded, _unconverged, read_ph, ticks_within
+from tui.widgets.curve_kinds import SI_SPAN, Mark, _guarded, _unconverged, read_ph, ticks_within
 from tui.widgets.line_plot import draw_lines, index_axis, log_axis
 from tui.widgets.plot_kinds import Drawing, PlotKind, PlotRequest, grid_points
 
@@ -38,8 +38,6 @@ SPECIATION_KIND_IDS = ("forms", "solubility", "saturation")
 MIN_SHARE = 0.01
 #: Most decades of dissolved concentration shown on the solubility plot (from the top of the data).
 LOG_DECADES = 12
-#: Most units of saturation index shown (from the top of the data; SI = 0 always in view).
-SI_SPAN = 20
 
 
 def _default_range() -> tuple[str, str]:
