@@ -302,13 +302,18 @@ def build_distribution(result: chem.Equilibrium, request: PlotRequest) -> Drawin
 
 
 def build_log_concentration(result: chem.Equilibrium, request: PlotRequest) -> Drawing:
-    """log10 of each species' concentration vs pH, with H+ and OH-."""
+    """log10 of each species' concentration vs pH, with H+ and OH- and the complexes.
+
+    With one system selected, its complexes (those holding it) are drawn with its own species.
+    """
     ph = chem.default_grid(grid_points(request.width))
     diagram = chem.log_concentrations(result.mixture, ph, ionic_strength=result.ionic_strength)
     keep = _selected_systems(result, request)
+    holding = {s.name for s in result.species if s.holds and keep and any(name in keep for name, _ in s.holds)}
     curves = [(name, values) for system, names in diagram.systems.items()
-              if keep is None or system == "water" or system in keep
-              for name, values in ((n, diagram.series[n]) for n in names)]
+              if keep is None or system == "water" or system in keep or system == "complex"
+              for name, values in ((n, diagram.series[n]) for n in names)
+              if system != "complex" or keep is None or name in holding]
     low = float(min(v.min() for _, v in curves))
     high = float(max(v.max() for _, v in curves))
     step = 2.0 if high - low <= 16 else 4.0
