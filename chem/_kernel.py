@@ -343,10 +343,16 @@ def _iterate(inp: Inputs, idx: np.ndarray, u: np.ndarray, ionic: np.ndarray, act
                 rows = np.nonzero(blocked)[0]
                 aw[rows, block[rows]] = True
         u[work] = u_new
-        # converged: a full Newton step below 1e-9, or one below 1e-6 that no longer shrinks (the
+        # converged: a full Newton step below 1e-9, or one below 1e-7 that no longer shrinks (the
         # answer is then set to round-off: a charge balance of molar ions around 1e-7 M of H+)
         step_now = alpha * big
-        small = (alpha == 1.0) & ((step_now < STEP_TOL) | ((step_now < 1e-6) & (step_now > 0.1 * last_step[work])))
+        # a component almost wholly held in solids moves its free amount by a step that no longer
+        # changes any balance: weigh each component's step by its free share of its total
+        held = c @ abs_nu
+        share = held / np.maximum(held + np.abs(tot), 1e-300)
+        impact = alpha * (np.abs(d) * np.maximum(share, 1e-12)).max(axis=1)
+        small = (alpha == 1.0) & ((step_now < STEP_TOL) | (impact < STEP_TOL)
+                                  | ((step_now < 1e-7) & (step_now > 0.1 * last_step[work])))
         last_step[work] = step_now
         if ne:
             lam_e[work] = le
@@ -360,7 +366,10 @@ def _iterate(inp: Inputs, idx: np.ndarray, u: np.ndarray, ionic: np.ndarray, act
                 r = r + le @ inp.eq_rows
             if nq:
                 r = r + ls @ inp.sol_a
-            near = (np.abs(r) / np.maximum(c @ abs_nu + np.abs(tot), 1e-300)).max(axis=1) < 1e-2
+            rel = (np.abs(r) / np.maximum(c @ abs_nu + np.abs(tot), 1e-300)).max(axis=1)
+            # once close, stay with the whole-system step (an ionic-strength update itself moves the
+            # balances by a per cent or so; losing the joint step then would cost every other step)
+            near = (rel < 1e-2) | (near_prev[work] & (rel < 0.3))
             i_new = ionic_of(sub, local, c_new, le)
             if sub.fixed_ionic is not None:
                 i_new = sub.fixed_ionic
@@ -425,7 +434,8 @@ def solve(inp: Inputs, u0: np.ndarray, i0: np.ndarray, *, max_iter: int = 200,
     u = _make_feasible(inp, idx, u)
     freeze = inp.fixed_ionic is not None
     with np.errstate(over="ignore", under="ignore", invalid="ignore", divide="ignore"):
-        budget = min(max_iter, 60)
+        # with the ionic strength free the nested search backs this stage up; without, it has it all
+        budget = min(max_iter, 60) if not (freeze or inp.model.ideal) else max_iter
         u, ionic, active, lam_e, lam_s, conv, its = _iterate(inp, idx, u, ionic, active,
                                                               freeze_ionic=freeze, max_iter=budget)
         iterations = its
@@ -570,6 +580,25 @@ def _make_feasible(inp: Inputs, idx, u: np.ndarray) -> np.ndarray:
 def _final(inp: Inputs, idx, u, ionic, active, lam_e, lam_s, conv, iterations) -> Result:
     lng = ln_gamma(inp, idx, ionic)
     c = concentrations(inp, idx, u, lng)
+    nq_ = inp.sol_a.shape[0]
+    if nq_ and active.any():
+        # put every present solid exactly on SI = 0: the smallest shift of u weighted by each component's
+        # free amount (so it lands on trace components, whose rows the last Newton step resolved least)
+        u = u.copy()
+        weight = np.maximum(c @ (inp.nu * inp.nu), 1e-300)             # (P, nc): Hessian diagonal
+        for i in np.nonzero(active.any(axis=1))[0]:
+            rows = np.nonzero(active[i])[0]
+            a = inp.sol_a[rows]
+            r = inp.sol_b[idx[i], rows] - a @ u[i]
+            if np.all(np.abs(r) < 1e-14):
+                continue
+            winv = 1.0 / weight[i]
+            m = (a * winv) @ a.T
+            try:
+                u[i] += winv * (a.T @ np.linalg.solve(m, r))
+            except np.linalg.LinAlgError:
+                pass
+        c = concentrations(inp, idx, u, lng)
     if inp.model.ideal:
         ionic = ionic_of(inp, idx, c, lam_e)
     nq = inp.sol_a.shape[0]
@@ -696,7 +725,8 @@ def starting_values(inp: Inputs, lay: Layout, *, h_fixed: np.ndarray | None = No
         comps &= ~np.any(inp.eq_rows != 0, axis=0) if inp.eq_rows.size else True
         if sweeps and nu.shape[0] > 2 + lay.mask.sum() + lay.ion_cols.size:
             pos = np.where(nu > 0, nu, 0.0)
-            for _ in range(sweeps):
+            h_free = h_fixed is None and not (inp.eq_rows.size and np.any(inp.eq_rows[:, 0] != 0))
+            for sweep in range(sweeps):
                 c = concentrations(inp, idx, u, lng)
                 m = c @ pos
                 m2 = c @ (pos * pos)
@@ -704,6 +734,16 @@ def starting_values(inp: Inputs, lay: Layout, *, h_fixed: np.ndarray | None = No
                 step = np.log(tot / np.maximum(m, 1e-300)) / nbar
                 step = np.clip(np.where(np.isfinite(step), step, 0.0), -200.0, 200.0)
                 u[:, comps] += step[:, comps]
+                if h_free and sweep % 2 == 1:
+                    # complexes bind and release protons: settle u_H on the proton balance with the
+                    # other components held (it rises strictly with u_H), a few Newton steps
+                    nu_h = nu[:, 0]
+                    for _ in range(6):
+                        c = concentrations(inp, idx, u, lng)
+                        gh = c @ nu_h - tot[:, 0]
+                        dh = c @ (nu_h * nu_h)
+                        du = np.clip(-gh / np.maximum(dh, 1e-300), -4.0, 4.0)
+                        u[:, 0] += np.where(np.isfinite(du), du, 0.0)
             if inp.fixed_ionic is None and not inp.model.ideal:
                 c = concentrations(inp, idx, u, lng)
                 i_all = ionic_of(inp, idx, c)

@@ -89,6 +89,10 @@ def kernel_inputs(prob: Problem, *, t_c=None, totals=None, inert_i=None, pressur
     which solids may form (P, solids).
     """
     st = prob.structure
+    if totals is not None and inert_q is None and fixed_ph is None:
+        # the proton row is solved as the charge balance, which needs the inert ions' charge
+        # for exactly these totals: refuse rather than solve a different mixture
+        raise ValueError("kernel_inputs: give inert_q (and inert_i) with per-point totals")
     t = np.atleast_1d(np.asarray(prob.temperature_c if t_c is None else t_c, dtype=float))
     tot = np.atleast_2d(prob.totals if totals is None else np.asarray(totals, dtype=float))
     p = max(t.size, tot.shape[0],

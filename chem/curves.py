@@ -28,6 +28,7 @@ from . import _kernel as K
 from ._solver import buffer_capacity_at, kernel_inputs, run_kernel, solve
 from .diagrams import default_grid
 from .errors import ChemError
+from .limits import PH_MAX, PH_MIN
 from .library import Library, load_library, normalise
 from .model import Equilibrium, FixedGas, Ingredient, Mixture, Reagent
 from .problem import LN10, TINY_TOTAL, compile, component_totals
@@ -643,7 +644,7 @@ def buffer_capacity(mixture: Mixture, ph=None, *, progress: Progress | None = No
     CapacityCurve
         β in mol/(L·pH), the added base in mol/L and the ionic strength.
     """
-    ph = _values(default_grid() if ph is None else ph, "pH values", -2.0, 16.0, "")
+    ph = _values(default_grid() if ph is None else ph, "pH values", PH_MIN, PH_MAX, "")
     fam = _Family(mixture, [mixture.ingredients])
     n = ph.size
     pieces = []

@@ -462,7 +462,7 @@ class _Model:
     def _base(self, temps: np.ndarray):
         n = temps.size
         inp = kernel_inputs(self.fam.prob, t_c=temps, totals=np.ones((n, self.st.n_components)),
-                            inert_i=np.zeros(n))
+                            inert_i=np.zeros(n), inert_q=np.zeros(n))
         return inp, inp.lnk.copy(), inp.sol_b.copy(), inp.eq_rhs.copy()
 
     def values(self, x) -> dict[str, float]:

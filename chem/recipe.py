@@ -39,6 +39,7 @@ from ._solver import solve
 from .roots import brent
 from .curves import buffer_capacity_at as buffer_capacity  # one definition of β for the tool
 from .errors import ChemError
+from .limits import PH_MAX, PH_MIN
 from .library import Library, load_library
 from .model import AcidBaseSystem, Equilibrium, Ingredient, Mixture, Notice, Reagent, format_molar
 from .units import MAX_CONC, parse_concentration, parse_volume
@@ -677,8 +678,8 @@ def design_buffer(system: str | AcidBaseSystem | None, target_pH: float, *, temp
         raise RecipeError(f"unknown recipe form '{form}' (use {', '.join(FORMS)})")
     if isinstance(target_pH, bool) or not isinstance(target_pH, (int, float)) or not math.isfinite(target_pH):
         raise RecipeError(f"target pH must be a finite number (got {target_pH!r})")
-    if not 0.0 <= target_pH <= 14.0:
-        raise RecipeError(f"target pH {target_pH:g} is outside 0..14")
+    if not PH_MIN <= target_pH <= PH_MAX:
+        raise RecipeError(f"target pH {target_pH:g} is outside {PH_MIN:g}..{PH_MAX:g}")
     Mixture((), temperature_c=temperature_c, activity=activity)   # validates both, one-line errors
     total_m = _amount(total, parse_concentration, "total buffer concentration")
     volume_l = _amount(volume, parse_volume, "final volume")

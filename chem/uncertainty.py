@@ -272,7 +272,8 @@ def _solve_draws(prob, eq: Equilibrium, der, delta: np.ndarray):
     """Solve the mixture once per row of ``delta`` (changes of every constant) in one kernel call."""
     st = prob.structure
     n = delta.shape[0]
-    inp = kernel_inputs(prob, totals=np.broadcast_to(prob.totals, (n, st.n_components)))
+    inp = kernel_inputs(prob, totals=np.broadcast_to(prob.totals, (n, st.n_components)),
+                        inert_q=np.full(n, prob.inert_q))
     inp.inert_i = np.full(n, prob.inert_i)
     shift_inputs(inp, st, der, range(len(der.constants)), delta)
     state = eq._state  # type: ignore[attr-defined]
@@ -281,7 +282,8 @@ def _solve_draws(prob, eq: Equilibrium, der, delta: np.ndarray):
     ok = np.asarray(res.converged, dtype=bool)
     if not ok.all():                                   # a cold start for the draws that did not settle
         bad = np.nonzero(~ok)[0]
-        sub = kernel_inputs(prob, totals=np.broadcast_to(prob.totals, (bad.size, st.n_components)))
+        sub = kernel_inputs(prob, totals=np.broadcast_to(prob.totals, (bad.size, st.n_components)),
+                            inert_q=np.full(bad.size, prob.inert_q))
         sub.inert_i = np.full(bad.size, prob.inert_i)
         shift_inputs(sub, st, der, range(len(der.constants)), delta[bad])
         again = run_kernel(prob, sub)
