@@ -128,10 +128,14 @@ def _no_solids(request: PlotRequest) -> Drawing:
                  "Add a metal salt and a partner (calcium chloride and sodium carbonate, say) with n.")
 
 
-def build_forms(result: chem.Equilibrium, request: PlotRequest, settings: HeldSettings | None) -> Drawing:
-    """Every species and solid holding one system, as its share of the system's total, vs pH (pH held)."""
+def build_forms(result: chem.Equilibrium, request: PlotRequest, settings: HeldSettings | None,
+                selected: str | None = None) -> Drawing:
+    """Every species and solid holding one system, as its share of the system's total, vs pH (pH held).
+
+    The system is the one set up, else ``selected`` (the selected ingredient's), else the first metal.
+    """
     settings = settings or HeldSettings()
-    system = held_system(result, settings, request.system)
+    system = held_system(result, settings, selected)
     if system is None:
         return _note(request, "Nothing in the flask: no system to follow.", "Add a reagent with n.")
     ph = settings.grid(request)
@@ -196,7 +200,7 @@ def speciation_kinds(settings: HeldSettings | None = None, result: chem.Equilibr
     solid = held_solid(result, settings) if result is not None else None
     return (
         PlotKind("forms", f"forms of {system or 'a system'} vs pH · pH held",
-                 _guarded(lambda r, q: build_forms(r, q, settings))),
+                 _guarded(lambda r, q: build_forms(r, q, settings, selected))),
         PlotKind("solubility", f"solubility of {solid or 'a solid'} vs pH",
                  _guarded(lambda r, q: build_solubility(r, q, settings))),
         PlotKind("saturation", "saturation indices vs pH", _guarded(lambda r, q: build_saturation(r, q, settings))),
