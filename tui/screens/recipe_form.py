@@ -226,7 +226,7 @@ class RecipeForm(Dialog["Recipe | tuple[str, Recipe] | None"]):
     }
     #recipe-scroll {
         height: auto;
-        max-height: 11;
+        max-height: 10;
     }
     #recipe-scroll.-stale {
         opacity: 60%;

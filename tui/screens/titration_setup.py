@@ -71,7 +71,7 @@ class TitrationSetup(Dialog["TitrationSettings | None"]):
         ("conc", "stock concentration", "e.g. 0.1 M"),
         ("sample", "sample volume", "of the flask's mixture, e.g. 25 mL"),
         ("to", "titrate up to", "last volume of titrant, e.g. 50 mL"),
-        ("track", "follow species", "optional: plot its pX, e.g. Ca^2+ (empty: the pH)"),
+        ("track", "follow species", "optional, e.g. Ca^2+ (plots pCa; empty: pH)"),
     )
 
     def __init__(self, mixture: chem.Mixture, settings: TitrationSettings | None = None,
