@@ -541,24 +541,34 @@ def _make_feasible(inp: Inputs, idx, u: np.ndarray) -> np.ndarray:
     nc = inp.nu.shape[1]
     pinned = np.zeros(nc, dtype=bool)
     if ne:
+        # the smallest change of the non-H components in the equalities (H only for a row that holds
+        # nothing else, such as a pH-stat's); a gas bringing in several components shares it out
         e = inp.eq_rows
-        piv = []
-        for k in range(ne):
-            order = np.argsort(-np.abs(e[k]))
-            choice = next((j for j in order if e[k, j] != 0 and j not in piv and j != 0), None)
-            if choice is None:
-                choice = next((j for j in order if e[k, j] != 0 and j not in piv), None)
-            piv.append(choice)
-        piv = np.array(piv)
-        sub = e[:, piv]
+        cols = np.any(e[:, 1:] != 0, axis=0)
+        use = np.concatenate([[False], cols])
+        h_only = ~np.any(e[:, 1:] != 0, axis=1)
+        if h_only.any():
+            use[0] = True
+        sub = e[:, use]
         resid = inp.eq_rhs[idx] - u @ e.T
-        try:
-            delta = np.linalg.solve(sub, resid.T).T
-        except np.linalg.LinAlgError:
-            delta = np.linalg.lstsq(sub, resid.T, rcond=None)[0].T
         u = u.copy()
-        u[:, piv] += delta
-        pinned[piv] = True
+        # weighted by the inverse of each component's total: the correction goes to the components a gas
+        # supplies (totals near zero, free amounts unknown), not to those the ingredients fix
+        winv = 1.0 / np.maximum(np.abs(inp.totals[idx][:, use]), 1e-250)       # (P, k)
+        winv /= winv.max(axis=1, keepdims=True)
+        for i in range(u.shape[0]) if u.shape[0] <= 64 else ():
+            m = (sub * winv[i]) @ sub.T
+            try:
+                u[i, use] += winv[i] * (sub.T @ np.linalg.solve(m, resid[i]))
+            except np.linalg.LinAlgError:
+                u[i, use] += np.linalg.lstsq(sub, resid[i], rcond=None)[0]
+        if u.shape[0] > 64:
+            m = np.einsum("kj,pj,lj->pkl", sub, winv, sub)
+            try:
+                lam = np.linalg.solve(m, resid[:, :, None])[:, :, 0]
+            except np.linalg.LinAlgError:
+                lam = np.stack([np.linalg.lstsq(m[i], resid[i], rcond=None)[0] for i in range(m.shape[0])])
+            u[:, use] += winv * (lam @ sub)
         pinned |= np.any(e != 0, axis=0)
     nq = inp.sol_a.shape[0]
     if nq:
@@ -675,7 +685,7 @@ def make_layout(nu: np.ndarray, sys_rows, sys_comp, ion_cols, ion_rows) -> Layou
 
 
 def starting_values(inp: Inputs, lay: Layout, *, h_fixed: np.ndarray | None = None,
-                    sweeps: int = 6) -> tuple[np.ndarray, np.ndarray]:
+                    sweeps: int = 12, x_tol: float = 1e-7) -> tuple[np.ndarray, np.ndarray]:
     """Starting u and I: the acid–base equilibrium with complexes left out, then a few
     log-ratio sweeps that let the complexes take their share of each component.
 
@@ -698,7 +708,7 @@ def starting_values(inp: Inputs, lay: Layout, *, h_fixed: np.ndarray | None = No
         x = None
         for _ in range(1):     # one pass: the Newton iteration corrects the ionic strength quadratically
             lng = ln_gamma(inp, idx, i0)
-            x = _acid_base_x(inp, lay, lng, h_fixed, x)
+            x = _acid_base_x(inp, lay, lng, h_fixed, x, x_tol)
             u[:, 0] = x
             if lay.rows.size:
                 w = (inp.lnk[:, lay.rows] - lng[:, lay.rows] + lay.j[None] * x[:, None, None])
@@ -726,24 +736,28 @@ def starting_values(inp: Inputs, lay: Layout, *, h_fixed: np.ndarray | None = No
         if sweeps and nu.shape[0] > 2 + lay.mask.sum() + lay.ion_cols.size:
             pos = np.where(nu > 0, nu, 0.0)
             h_free = h_fixed is None and not (inp.eq_rows.size and np.any(inp.eq_rows[:, 0] != 0))
+            pos2 = pos * pos
+            nu_h = nu[:, 0]
+            nu_h2 = nu_h * nu_h
             for sweep in range(sweeps):
                 c = concentrations(inp, idx, u, lng)
                 m = c @ pos
-                m2 = c @ (pos * pos)
-                nbar = np.maximum(m2 / np.maximum(m, 1e-300), 1.0)
+                nbar = np.maximum((c @ pos2) / np.maximum(m, 1e-300), 1.0)
                 step = np.log(tot / np.maximum(m, 1e-300)) / nbar
                 step = np.clip(np.where(np.isfinite(step), step, 0.0), -200.0, 200.0)
                 u[:, comps] += step[:, comps]
-                if h_free and sweep % 2 == 1:
+                moved = np.abs(step[:, comps]).max() if comps.any() else 0.0
+                if h_free:
                     # complexes bind and release protons: settle u_H on the proton balance with the
                     # other components held (it rises strictly with u_H), a few Newton steps
-                    nu_h = nu[:, 0]
-                    for _ in range(6):
+                    for _ in range(3):
                         c = concentrations(inp, idx, u, lng)
-                        gh = c @ nu_h - tot[:, 0]
-                        dh = c @ (nu_h * nu_h)
-                        du = np.clip(-gh / np.maximum(dh, 1e-300), -4.0, 4.0)
-                        u[:, 0] += np.where(np.isfinite(du), du, 0.0)
+                        du = np.clip(-(c @ nu_h - tot[:, 0]) / np.maximum(c @ nu_h2, 1e-300), -4.0, 4.0)
+                        du = np.where(np.isfinite(du), du, 0.0)
+                        u[:, 0] += du
+                        moved = max(moved, float(np.abs(du).max()))
+                if moved < 0.05:       # close enough for Newton: stop sweeping
+                    break
             if inp.fixed_ionic is None and not inp.model.ideal:
                 c = concentrations(inp, idx, u, lng)
                 i_all = ionic_of(inp, idx, c)
@@ -753,46 +767,51 @@ def starting_values(inp: Inputs, lay: Layout, *, h_fixed: np.ndarray | None = No
     return u, i0
 
 
-def _acid_base_x(inp: Inputs, lay: Layout, lng: np.ndarray, h_fixed, x0=None) -> np.ndarray:
+def _acid_base_x(inp: Inputs, lay: Layout, lng: np.ndarray, h_fixed, x0=None, tol: float = 1e-7) -> np.ndarray:
     """u_H of the acid–base equilibrium at fixed γ (complexes left out): Newton with limited steps
-    kept inside a bracket (the proton balance rises strictly with u_H)."""
+    kept inside a bracket (the proton balance rises strictly with u_H); points leave as they settle."""
     p = inp.points
     if h_fixed is not None:
         return np.asarray(h_fixed, dtype=float) * np.ones(p)
-    t_h = inp.totals[:, 0]
-    lnk_oh = inp.lnk[:, lay.oh_row] - lng[:, lay.oh_row]
-    lng_h = lng[:, 0]
+    t_h_all = inp.totals[:, 0]
+    lnk_oh_all = inp.lnk[:, lay.oh_row] - lng[:, lay.oh_row]
+    lng_h_all = lng[:, 0]
     if lay.rows.size:
-        w0 = np.where(lay.mask[None], inp.lnk[:, lay.rows] - lng[:, lay.rows], -np.inf)
-        tot = inp.totals[:, lay.comp]
+        w0_all = np.where(lay.mask[None], inp.lnk[:, lay.rows] - lng[:, lay.rows], -np.inf)
+        tot_all = inp.totals[:, lay.comp]
         jj = lay.j[None]
+    x = np.full(p, -7.0 * _LN10) if x0 is None else np.array(x0, dtype=float)
     lo = np.full(p, -60.0)
     hi = np.full(p, 25.0)
-    x = np.full(p, -7.0 * _LN10) if x0 is None else np.array(x0, dtype=float)
+    work = np.arange(p)
     for _ in range(80):
-        hc = np.exp(x - lng_h)
-        ohc = np.exp(lnk_oh - x)
-        f = hc - ohc - t_h
+        xw = x[work]
+        hc = np.exp(xw - lng_h_all[work])
+        ohc = np.exp(lnk_oh_all[work] - xw)
+        f = hc - ohc - t_h_all[work]
         df = hc + ohc
         if lay.rows.size:
-            w = w0 + jj * x[:, None, None]
+            w = w0_all[work] + jj * xw[:, None, None]
             w -= w.max(axis=2, keepdims=True)
             e = np.exp(w)
             s0 = e.sum(axis=2)
             ej = e * jj
             m1 = ej.sum(axis=2) / s0
             m2 = (ej * jj).sum(axis=2) / s0
-            f = f + (tot * m1).sum(axis=1)
-            df = df + (tot * np.maximum(m2 - m1 * m1, 0.0)).sum(axis=1)
-        lo = np.where(f < 0, x, lo)
-        hi = np.where(f > 0, x, hi)
-        step = np.clip(-f / df, -3.0, 3.0)
-        x_new = x + step
-        bad = ~np.isfinite(x_new) | (x_new <= lo) | (x_new >= hi)
-        x_new = np.where(bad, 0.5 * (lo + hi), x_new)
-        done = np.all(np.abs(x_new - x) < 1e-7)
-        x = x_new
-        if done:
+            tw = tot_all[work]
+            f = f + (tw * m1).sum(axis=1)
+            df = df + (tw * np.maximum(m2 - m1 * m1, 0.0)).sum(axis=1)
+        low, high = lo[work], hi[work]
+        low = np.where(f < 0, xw, low)
+        high = np.where(f > 0, xw, high)
+        x_new = xw + np.clip(-f / df, -3.0, 3.0)
+        bad = ~np.isfinite(x_new) | (x_new <= low) | (x_new >= high)
+        x_new = np.where(bad, 0.5 * (low + high), x_new)
+        lo[work], hi[work] = low, high
+        x[work] = x_new
+        keep = np.abs(x_new - xw) >= tol
+        work = work[keep]
+        if work.size == 0:
             break
     return x
 

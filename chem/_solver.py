@@ -162,7 +162,34 @@ def kernel_inputs(prob: Problem, *, t_c=None, totals=None, inert_i=None, pressur
 
 def run_kernel(prob: Problem, inp: K.Inputs, *, u0=None, i0=None, max_iter: int = 200,
                fixed_ph=None) -> K.Result:
-    """Starting values (unless given) and the kernel solve."""
+    """Starting values (unless given) and the kernel solve.
+
+    A batch of a pure acid–base structure (no imposed pH or ionic strength)
+    goes through the vectorised fast path first; the kernel takes any point
+    it leaves unsettled.
+    """
+    if (prob.structure.fast and fixed_ph is None and inp.fixed_ionic is None and inp.points > 1
+            and max_iter >= 40):
+        from . import _fastbatch
+
+        res = _fastbatch.solve(inp, layout_of(prob.structure))
+        if res is not None:
+            bad = np.nonzero(~res.converged)[0]
+            if bad.size:
+                sub = K._subset(inp, bad)
+                again = run_kernel(prob, sub, max_iter=max_iter, fixed_ph=None) if sub.points == 1 else \
+                    _general(prob, sub, max_iter)
+                for name in ("u", "lng", "conc", "amounts"):
+                    getattr(res, name)[bad] = getattr(again, name)
+                res.ionic[bad] = again.ionic
+                res.converged[bad] = again.converged
+                res.residual[bad] = again.residual
+            return res
+    return _general(prob, inp, max_iter, u0=u0, i0=i0, fixed_ph=fixed_ph)
+
+
+def _general(prob: Problem, inp: K.Inputs, max_iter: int, *, u0=None, i0=None, fixed_ph=None) -> K.Result:
+    """The general kernel from starting values (unless given)."""
     if u0 is None:
         h = None if fixed_ph is None else -LN10 * np.broadcast_to(np.asarray(fixed_ph, dtype=float),
                                                                   (inp.points,))

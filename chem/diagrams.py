@@ -142,7 +142,7 @@ def log_concentrations(mixture: Mixture, ph=None, *, ionic_strength: float | Non
                 owners[sys_.name] = sys_.species
         else:
             inp = kernel_inputs(prob, fixed_ph=ph, fixed_ionic=np.full(ph.size, ionic))
-            res = run_kernel(prob, inp, fixed_ph=ph)
+            res = _chunked(prob, inp, ph)
             converged = np.array(res.converged)
             logc = np.log10(res.conc)
             for r, info in enumerate(st.species):
@@ -178,8 +178,28 @@ def _held(mixture: Mixture, ph: np.ndarray, *, solid: str | None = None):
         keep = np.ones(len(names), dtype=bool)
         keep[q] = False
         inp.allowed = inp.allowed & keep[None, :]
-    res = run_kernel(prob, inp, fixed_ph=ph)
+    res = _chunked(prob, inp, ph)
     return prob, inp, res
+
+
+#: Points solved per kernel call (bounds memory: the KKT systems are points × n × n).
+_CHUNK = 4096
+
+
+def _chunked(prob, inp, ph):
+    """run_kernel in chunks of at most :data:`_CHUNK` points."""
+    n = ph.size
+    if n <= _CHUNK:
+        return run_kernel(prob, inp, fixed_ph=ph)
+    pieces = []
+    for start in range(0, n, _CHUNK):
+        sel = np.arange(start, min(start + _CHUNK, n))
+        pieces.append(run_kernel(prob, K._subset(inp, sel), fixed_ph=ph[sel]))
+    first = pieces[0]
+    for name in ("u", "ionic", "lng", "conc", "amounts", "eq_mult", "converged", "residual"):
+        setattr(first, name, np.concatenate([getattr(p_, name) for p_ in pieces]))
+    first.iterations = max(p_.iterations for p_ in pieces)
+    return first
 
 
 def system_distribution(mixture: Mixture, system: str, ph=None) -> Diagram:

@@ -8,7 +8,7 @@ import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from chem import ModelError, Ingredient, Mixture, load_library, solve
+from chem import FixedGas, Ingredient, Mixture, ModelError, load_library, solve
 
 LIB = load_library()
 REAGENTS = LIB.reagents
@@ -119,3 +119,33 @@ def test_concentrated_mixtures_up_to_5_molar_converge(mix):
     assert eq.converged, eq.message
     net = sum(s.charge * s.conc for s in eq.species)
     assert abs(net) <= 1e-12 * charge_scale(eq)
+
+
+GASES = LIB.gases
+open_mixtures = st.builds(
+    lambda ings, t, model, precip, gas, log_p: Mixture(
+        tuple(ings), temperature_c=t, activity=model, precipitate=precip,
+        gases=() if gas is None else (FixedGas(GASES[gas], 10.0 ** log_p),)),
+    st.lists(ingredient, min_size=1, max_size=8), st.floats(0.0, 100.0), st.sampled_from(MODELS), st.booleans(),
+    st.one_of(st.none(), st.integers(0, len(GASES) - 1)), st.floats(-7.0, -1.0))
+
+
+@SETTINGS
+@given(open_mixtures)
+def test_random_library_mixtures_with_solids_and_gases_converge_and_balance(mix):
+    # Metals, chelators, the library's complexes and solids (allowed to form or not) and a gas held at a
+    # pressure: every mixture converges, closes its charge balance and meets the phase-rule conditions.
+    try:
+        eq = solve(mix)
+    except ModelError:
+        return
+    assert eq.converged, eq.message
+    net = sum(s.charge * s.conc for s in eq.species)
+    assert abs(net) <= 1e-10 * charge_scale(eq)
+    for s in eq.solids:
+        if s.amount > 0:
+            assert s.allowed and abs(s.saturation_index) < 1e-7
+        elif s.allowed:
+            assert s.saturation_index < 1e-7
+    for state in eq.systems:
+        assert math.fsum(f for _, f in state.distribution) == pytest.approx(1.0, abs=1e-9)

@@ -149,3 +149,15 @@ def test_headspace_over_sulfide_at_ph_8_carries_a_toxic_gas_caution():
     h2s = eq.gas("H2S")
     assert h2s.pressure_atm * 1e6 > 10.0
     assert any(c.code == "toxic-gas" and "H2S" in c.message for c in eq.cautions)
+
+
+@pytest.mark.parametrize("activity", ["ideal", "davies"])
+def test_chlorine_gas_dissolves_into_hypochlorous_acid_and_chloride(activity):
+    # Cl2(aq) + H2O = HOCl + H+ + Cl- (the hydrolysis, about 4e-4 at 25 °C; from memory): water held
+    # under chlorine takes up as much HOCl as HCl, so [HOCl] ≈ [Cl-] ≈ [H+] and the solution is acidic.
+    eq = solve(mix(activity=activity, gases=(FixedGas(LIB.gas("Cl2"), 0.01),)))
+    assert eq.converged
+    hocl = eq.get("HOCl").conc + eq.get("OCl-").conc
+    assert eq.get("Cl-").conc == pytest.approx(hocl, rel=1e-9)
+    assert 1.5 < eq.pH < 3.0
+    assert eq.gas("Cl2").uptake == pytest.approx(hocl + eq.get("Cl2").conc, rel=1e-9)
