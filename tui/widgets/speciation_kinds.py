@@ -110,7 +110,8 @@ def _ph_marks(result: chem.Equilibrium) -> list[Mark]:
 
 
 def _ph_axis(request: PlotRequest, lo: float, hi: float) -> list[float]:
-    return ticks_within(lo, hi, max(2, request.width // 8))
+    """Round pH ticks; a tick every 6 cells or more (pH labels are at most 4 characters wide)."""
+    return ticks_within(lo, hi, max(2, request.width // 6))
 
 
 def _y_most(request: PlotRequest) -> int:
