@@ -292,3 +292,26 @@ async def test_a_free_level_without_a_chelator_is_refused_in_the_form(library):
         await pilot.press("enter")
         await pilot.pause()
         assert app.answers == []
+
+
+# --------------------------------------------------------------------------
+# drawing: every size and style stays inside its area
+# --------------------------------------------------------------------------
+
+@pytest.mark.parametrize("name", ["drug-base-solubility", "well-water-hardness", "struvite-wastewater",
+                                  "cleaning-closet-mixup"])
+def test_the_held_plots_stay_inside_their_area_in_colour_and_in_ascii(name):
+    from tui.widgets.plot_kinds import PlotRequest, PlotStyle, draw_kind
+    from tui.widgets.speciation_kinds import speciation_kinds
+
+    result = chem.solve(preset(name))
+    styles = (PlotStyle.for_terminal(dark=True, color=True, utf8=True),
+              PlotStyle.for_terminal(dark=False, color=False, utf8=False))
+    for style in styles:
+        for kind in speciation_kinds(None, result, None):
+            for width, height in ((80, 22), (45, 12), (30, 8)):
+                drawing = draw_kind(kind, result, PlotRequest(kind.id, width, height, None, style))
+                lines = drawing.plain.split("\n")
+                assert len(lines) <= height and max(len(line) for line in lines) <= width, (kind.id, width)
+                if style.ascii:
+                    assert drawing.plain.isascii(), (kind.id, width)
