@@ -39,8 +39,8 @@ import chem
 from chem import ACTIVITY_MODELS as MODELS
 from tui import storage
 from tui.fit_actions import FitActions
-from tui.plot_actions import PlotActions
 from tui.messages import AutosaveWritten, Plotted, Solved
+from tui.plot_actions import PlotActions
 from tui.text import one_line
 from tui.widgets.flask_list import FlaskList
 from tui.widgets.notice_bar import NoticeBar
@@ -123,14 +123,6 @@ COMMANDS: tuple[Command, ...] = (
             "dilution, forms of a system, solubility, saturation)", True),
     Command("v", "curve_setup", "Curve", "Set up the plot shown in the chart (titration, sweep, system, solid, "
             "pH range)"),
-    Command("b", "recipe", "Recipe", "Design a buffer recipe and load it into the flask"),
-    Command("f", "fit", "Fit", "Fit a measured titration (CSV); show its points on the titration plot"),
-    Command("i", "uncertainty", "± pH", "Show or hide the uncertainty: ± beside the pH, a band on the titration"),
-    Command("a", "plot_scope", "All/one", "Plot all systems or only the selected ingredient's"),
-    Command("w", "notices", "Notices", "Explain the current warnings and cautions"),
-    Command("s,ctrl+s", "save", "Save", "Save the mixture as a preset", True),
-    Command("o,ctrl+o", "open", "Open", "Open a shipped or saved preset", True),
-    Command("q", "quit", "Quit", "Quit (asks first if the mixture has unsaved changes)"),
     # -- plots of full speciation, pH held at each point (tui/plot_actions.py): palette only ---------
     Command("", "show_plot('forms')", "Plot forms of a system",
             "Every species, complex and solid holding one system (a metal, a ligand) vs pH, as shares"),
@@ -141,6 +133,14 @@ COMMANDS: tuple[Command, ...] = (
     Command("", "show_plot('titration')", "Plot titration", "The titration curve (v: titrant, followed species)"),
     Command("", "show_plot('sweep')", "Plot sweep",
             "pH or saturation indices as an amount, the temperature or a gas pressure varies (v sets it up)"),
+    Command("b", "recipe", "Recipe", "Design a buffer recipe and load it into the flask"),
+    Command("f", "fit", "Fit", "Fit a measured titration (CSV); show its points on the titration plot"),
+    Command("i", "uncertainty", "± pH", "Show or hide the uncertainty: ± beside the pH, a band on the titration"),
+    Command("a", "plot_scope", "All/one", "Plot all systems or only the selected ingredient's"),
+    Command("w", "notices", "Notices", "Explain the current warnings and cautions"),
+    Command("s,ctrl+s", "save", "Save", "Save the mixture as a preset", True),
+    Command("o,ctrl+o", "open", "Open", "Open a shipped or saved preset", True),
+    Command("q", "quit", "Quit", "Quit (asks first if the mixture has unsaved changes)"),
 )
 
 
