@@ -32,7 +32,7 @@ HELD_PH_RANGE = (2.0, 12.0)
 #: reference temperature of the compilations the library cites).
 STANDARD_TEMPERATURE_C = 25.0
 
-__all__ = ["PH_MIN", "PH_MAX", "HELD_PH_RANGE", "T_MIN_C", "T_MAX_C", "STANDARD_TEMPERATURE_C", "LOG_C_FLOOR", "check_ph",
+__all__ = ["PH_MIN", "PH_MAX", "T_MIN_C", "T_MAX_C", "STANDARD_TEMPERATURE_C", "LOG_C_FLOOR", "check_ph",
            "check_ph_range", "check_temperature", "neutral_ph", "ph_grid"]
 
 
