@@ -149,7 +149,10 @@ def free_line(recipe: Recipe) -> Content | None:
     fm = chem.format_molar
     eq = recipe.equilibrium
     species = next((s for s in eq.species if s.name == recipe.free_species), None)
-    level = f" · {p_label(recipe.free_species)} {eq.free_level(species.system):.3f}" if species is not None else ""
+    own = next((s for s in eq.species if species is not None and s.system == species.system), None)
+    level = ""
+    if species is not None and own is species:        # a metal's free ion: chem gives its level (pM)
+        level = f" · {p_label(recipe.free_species)} {eq.free_level(species.system):.3f}"
     return Content.assemble(("free ", "bold"), (f"{recipe.free_species} {fm(recipe.free_reached, 4)}",
                                                 "bold $secondary"),
                             f" (wanted {fm(recipe.free_target, 4)}){level}")
