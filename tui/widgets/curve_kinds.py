@@ -12,7 +12,10 @@ API:
     ``dilution_kind()`` -> :class:`PlotKind` (ids "titration", "capacity", "sweep", "dilution").
     ``curve_kinds(titration=None, sweep=None)`` -> those four, in chart order.
     ``draw_kind`` (from :mod:`plot_kinds`, re-exported) -> :class:`Drawing` for any kind.
-    ``TitrationSettings`` / ``SweepSettings``: what the setup forms return (text as typed);
+    ``TitrationSettings`` / ``SweepSettings``: what the setup forms return (text as typed); a titration
+    may follow a species (``track="Ca^2+"``: pCa is plotted, with its equivalence points), a sweep
+    may vary a gas's partial pressure (``vary="CO2"``, pressures typed with units) and show every
+    solid's saturation index (``show="SI"``, drawn by :func:`tui.widgets.line_plot.draw_lines`);
     ``default_titration(result)`` / ``default_sweep(mixture)``: the settings used when none are set.
     ``read_number(text, what)`` / ``read_celsius(text, what)``: numbers typed in forms (the temperature
     read and range-checked by :func:`chem.parse_temperature`, as in the line commands).
