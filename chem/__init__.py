@@ -10,21 +10,35 @@ Pure numpy/scipy; no user-interface imports.
 from __future__ import annotations
 
 from ._solver import buffer_capacity_at, solve, tableau
+from .activity import MODELS as ACTIVITY_MODELS
 from .errors import ChemError, LibraryError, ModelError, PresetError, UnitError
 from .library import Library, load_library
+from .limits import (AIR_GAS, AIR_PRESSURE, HELD_PH_RANGE, LOG_C_FLOOR, PH_MAX, PH_MIN, STANDARD_TEMPERATURE_C,
+                     T_MAX_C, T_MIN_C, check_ph, neutral_ph, ph_grid)
 from .model import (AcidBaseSystem, Complex, Equilibrium, FixedGas, Gas, GasState, Ingredient, Ion, Mixture,
                     Notice, Reagent, Solid, SolidState, Species, SystemState, format_molar)
-from .presets import demo_mixture, dumps_preset, load_preset, loads_preset, save_preset, shipped_presets
-from .units import parse_concentration, parse_pressure, parse_volume
+from .presets import (check_save_target, clean_stale_temps, custom_reagent, demo_mixture, dumps_preset,
+                      load_preset, loads_preset, read_preset_bytes, save_preset, shipped_presets, write_atomic)
+from .units import (format_pressure, parse_concentration, parse_pressure, parse_temperature, parse_volume,
+                    pressure_ppm)
 
-# Curves and recipes are loaded on first use: the recipe designer needs
-# scipy.optimize (about 0.3-0.7 s to import), which the explorer's start-up
-# should not pay for.
+# Curves, diagrams, recipes, fits and uncertainties are loaded on first use:
+# the explorer's first frame needs none of them, and the recipe designer and
+# the fit need scipy.optimize (about 0.3-0.7 s to import). Front ends use
+# these names from the package itself (``chem.titration``), never the
+# modules behind them.
 _LAZY = {
-    **{name: "curves" for name in ("CapacityCurve", "Curve", "CurveError", "EquivalencePoint", "TitrationCurve",
-                                   "buffer_capacity", "dilution", "sweep", "titration")},
+    **{name: "curves" for name in ("CapacityCurve", "Cancelled", "Curve", "CurveError", "EquivalencePoint",
+                                   "TitrationCurve", "buffer_capacity", "dilution", "find_reagent", "gas_named",
+                                   "ingredient_index", "sweep", "titration")},
+    **{name: "diagrams" for name in ("Diagram", "default_grid", "distribution", "log_concentrations",
+                                     "saturation", "solubility", "system_distribution")},
     **{name: "recipe" for name in ("Recipe", "RecipeError", "design_buffer", "design_metal_buffer",
                                    "suggest_systems")},
+    **{name: "fit" for name in ("FitError", "FitResult", "TitrationData", "clean_text", "fit_titration",
+                                "parse_parameter", "read_titration")},
+    **{name: "uncertainty" for name in ("DEFAULT_LOG_K_SD", "DEFAULT_PKA_SD", "UncertaintyError", "Z95",
+                                        "curve_band", "propagate")},
 }
 
 
@@ -41,6 +55,15 @@ def __getattr__(name: str):
 __version__ = "0.1.0"
 
 __all__ = [
+    "ACTIVITY_MODELS", "HELD_PH_RANGE", "LOG_C_FLOOR", "PH_MAX", "PH_MIN", "STANDARD_TEMPERATURE_C", "T_MAX_C",
+    "T_MIN_C", "check_ph", "neutral_ph", "ph_grid", "check_save_target", "clean_stale_temps", "custom_reagent",
+    "read_preset_bytes", "write_atomic", "parse_temperature", "AIR_GAS", "AIR_PRESSURE", "format_pressure",
+    "pressure_ppm",
+    "Cancelled", "find_reagent", "gas_named", "ingredient_index",
+    "Diagram", "default_grid", "distribution", "log_concentrations", "saturation", "solubility",
+    "system_distribution",
+    "FitError", "FitResult", "TitrationData", "clean_text", "fit_titration", "parse_parameter", "read_titration",
+    "DEFAULT_LOG_K_SD", "DEFAULT_PKA_SD", "UncertaintyError", "Z95", "curve_band", "propagate",
     "AcidBaseSystem", "ChemError", "Complex", "Equilibrium", "FixedGas", "Gas", "GasState", "Ingredient", "Ion",
     "Library", "LibraryError", "Solid", "SolidState", "SystemState",
     "Mixture", "ModelError", "Notice", "PresetError", "Reagent", "Species", "UnitError",

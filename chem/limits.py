@@ -22,6 +22,12 @@ from .water import T_MAX_C, T_MIN_C
 PH_MIN = 0.0
 PH_MAX = 14.0
 
+#: Default pH axis of the curves that hold the pH at each point (distribution of one system with
+#: its complexes and solids, solubility, saturation indices): the range of natural and process
+#: waters and of most lab work, where a pH-stat's acid or base stays far below molar levels
+#: (common practice).
+HELD_PH_RANGE = (2.0, 12.0)
+
 #: Temperature at which the library's constants are tabulated, °C (the standard
 #: reference temperature of the compilations the library cites).
 STANDARD_TEMPERATURE_C = 25.0

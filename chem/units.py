@@ -181,11 +181,12 @@ _PRESSURE = {
 MAX_PRESSURE_ATM = 1000.0
 
 
-def parse_pressure(value) -> float:
+def parse_pressure(value, *, allow_zero: bool = False) -> float:
     """Partial pressure in atm from a number (atm) or a string with a unit.
 
     Units: atm, bar, mbar, kPa, Pa, mmHg (torr), uatm (µatm), and ppm or %
-    of a 1 atm total pressure.  The pressure must be above 0.
+    of a 1 atm total pressure.  The pressure must be above 0 (or, with
+    ``allow_zero``, at least 0: the start of a sweep of a gas's pressure).
 
     >>> parse_pressure("420 uatm")
     0.00042
@@ -216,8 +217,8 @@ def parse_pressure(value) -> float:
             p = float(value)
         except OverflowError:
             raise UnitError(f"{shown(value)} is too large") from None
-    if not math.isfinite(p) or p <= 0:
-        raise UnitError(f"{shown(value)}: a pressure must be above 0")
+    if not math.isfinite(p) or p < 0 or (p == 0 and not allow_zero):
+        raise UnitError(f"{shown(value)}: a pressure must be {'0 or more' if allow_zero else 'above 0'}")
     if p > MAX_PRESSURE_ATM:
         raise UnitError(f"{shown(value)}: more than {MAX_PRESSURE_ATM:g} atm")
     return p

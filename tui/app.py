@@ -36,11 +36,12 @@ from textual.widgets import Footer, Input, Static
 from textual.worker import Worker, WorkerCancelled, WorkerFailed, WorkerState, get_current_worker
 
 import chem
-from chem.activity import MODELS
+from chem import ACTIVITY_MODELS as MODELS
 from tui import storage
 from tui.fit_actions import FitActions
 from tui.speciation_actions import SpeciationActions
 from tui.messages import AutosaveWritten, Plotted, Solved
+from tui.plot_actions import PlotActions
 from tui.text import one_line
 from tui.widgets.flask_list import FlaskList
 from tui.widgets.notice_bar import NoticeBar
@@ -124,8 +125,19 @@ COMMANDS: tuple[Command, ...] = (
     Command("u,ctrl+z", "undo", "Undo", "Undo the last edit", True),
     Command("r,ctrl+y", "redo", "Redo", "Redo the edit just undone"),
     Command("g", "next_plot", "Plot", "Switch the plot (fractions, log C, titration, buffer capacity, sweep, "
-            "dilution)", True),
-    Command("v", "curve_setup", "Curve", "Set up the titration or sweep shown in the chart"),
+            "dilution, forms of a system, solubility, saturation)", True),
+    Command("v", "curve_setup", "Curve", "Set up the plot shown in the chart (titration, sweep, system, solid, "
+            "pH range)"),
+    # -- plots of full speciation, pH held at each point (tui/plot_actions.py): palette only ---------
+    Command("", "show_plot('forms')", "Plot forms of a system",
+            "Every species, complex and solid holding one system (a metal, a ligand) vs pH, as shares"),
+    Command("", "show_plot('solubility')", "Plot solubility of a solid",
+            "Dissolved totals with an excess of one solid vs pH (solids, precipitation)"),
+    Command("", "show_plot('saturation')", "Plot saturation indices",
+            "SI of every candidate solid vs pH: which solids could precipitate"),
+    Command("", "show_plot('titration')", "Plot titration", "The titration curve (v: titrant, followed species)"),
+    Command("", "show_plot('sweep')", "Plot sweep",
+            "pH or saturation indices as an amount, the temperature or a gas pressure varies (v sets it up)"),
     Command("b", "recipe", "Recipe", "Design a buffer recipe and load it into the flask"),
     Command("f", "fit", "Fit", "Fit a measured titration (CSV); show its points on the titration plot"),
     Command("i", "uncertainty", "± pH", "Show or hide the uncertainty: ± beside the pH, a band on the titration"),
@@ -158,7 +170,7 @@ def _bindings() -> list[Binding]:
             for c in COMMANDS if c.key]
 
 
-class ExplorerApp(SpeciationActions, FitActions, App[int]):
+class ExplorerApp(SpeciationActions, PlotActions, FitActions, App[int]):
     """The live explorer of one mixture."""
 
     CSS_PATH = Path(__file__).with_name("app.tcss")
@@ -353,7 +365,8 @@ class ExplorerApp(SpeciationActions, FitActions, App[int]):
     @property
     def kinds(self) -> tuple[PlotKind, ...]:
         """Every plot the chart can show, the curve kinds with their current settings."""
-        return self.with_overlay(PLOT_KINDS + _curves().curve_kinds(self._titration, self._sweep))
+        return self.with_overlay(PLOT_KINDS + _curves().curve_kinds(self._titration, self._sweep)
+                                 + self.speciation_kinds())
 
     def _kind(self) -> PlotKind:
         for kind in PLOT_KINDS:                         # the common case, without loading the curves
@@ -777,21 +790,22 @@ class ExplorerApp(SpeciationActions, FitActions, App[int]):
         self.notify(f"{verb}: {what}", timeout=2)
 
     def action_next_plot(self) -> None:
-        ids = [k.id for k in self.kinds]
-        self.plot_kind = ids[(ids.index(self.plot_kind) + 1) % len(ids)]
+        self.plot_kind = self.next_plot_id()
 
     def action_curve_setup(self) -> None:
         from tui.screens.sweep_setup import SweepSetup
         from tui.screens.titration_setup import TitrationSetup
 
+        if self.held_setup():                           # forms, solubility, saturation: their own form
+            return
         if self.plot_kind == "sweep":
             def use_sweep(settings: SweepSettings | None) -> None:
                 if settings is not None:
                     self._sweep = settings
                     self._recompute()
 
-            self.push_screen(SweepSetup(self.mixture, self._sweep or _curves().default_sweep(self.mixture)),
-                             use_sweep)
+            self.push_screen(SweepSetup(self.mixture, self._sweep or _curves().default_sweep(self.mixture),
+                                        **self.sweep_choices()), use_sweep)
             return
 
         def use_titration(settings: TitrationSettings | None) -> None:

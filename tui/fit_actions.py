@@ -5,7 +5,7 @@
 * ``i``: show or hide the uncertainty: a ± beside the pH in the readout (first order, from the
   constants' uncertainties) and a 95 % band on the titration plot.
 
-Numbers come from :mod:`chem.fit` and :mod:`chem.uncertainty`; this module only wires them.
+Numbers come from chem (:func:`chem.fit_titration`, :func:`chem.propagate`); this module only wires them.
 """
 
 from __future__ import annotations
@@ -35,6 +35,8 @@ class FitActions:
         """``kinds`` with the titration plot replaced by the one showing measured points or the band."""
         if self._overlay_data is None and not self.show_uncertainty:
             return kinds
+        if self._titration is not None and self._titration.track.strip():
+            return kinds                                # a followed pX: measured pH points and band stay off
         from dataclasses import replace
 
         from tui.widgets.fit_plot import Overlay, overlay_kind
@@ -87,9 +89,7 @@ class FitActions:
         if not self.show_uncertainty or result is None or not result.converged:
             readout.ph_sd = None
             return
-        from chem.uncertainty import propagate
-
         try:
-            readout.ph_sd = propagate(result).pH_sd
+            readout.ph_sd = chem.propagate(result).pH_sd
         except chem.ChemError:
             readout.ph_sd = None

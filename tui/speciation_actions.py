@@ -16,7 +16,7 @@ from __future__ import annotations
 from typing import TYPE_CHECKING
 
 import chem
-from chem.limits import AIR_GAS, AIR_PRESSURE
+from chem import AIR_GAS, AIR_PRESSURE
 from tui.formula import shown_name, shown_unit
 from tui.widgets.phase_panel import PhasePanel
 from tui.widgets.plot_kinds import MIN_HEIGHT

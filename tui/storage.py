@@ -12,7 +12,7 @@ autosave whose lock nobody holds belongs to a session that ended without
 quitting (a dropped connection, a crash, a kill): it is *orphaned*, and the
 next explorer offers it back. Only an explicit "discard" deletes one.
 
-Every write goes through :func:`chem.presets.write_atomic` (temporary file,
+Every write goes through :func:`chem.write_atomic` (temporary file,
 fsync, rename). Nothing here touches chemistry: mixtures are read and
 written by :mod:`chem`. Every problem with a folder or a file raises
 :class:`StorageError` or :class:`chem.ChemError` with a one-line message.
@@ -29,7 +29,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 import chem
-from chem.presets import clean_stale_temps, read_preset_bytes
+from chem import clean_stale_temps, read_preset_bytes
 
 try:
     import fcntl

@@ -98,7 +98,10 @@ async def test_g_switches_the_plot_and_a_limits_it_to_the_selected_system(settle
         assert kinds == ["titration", "capacity", "sweep", "dilution"]
         assert titles[1] == "buffer capacity vs pH" and "·" not in "".join(titles)
         assert "titrant added (mL)" in texts[0] and "dilution" in texts[3]
-        await pilot.press("g")
+        await pilot.press("g")                          # the forms of one system, pH held
+        await settle(pilot)
+        assert app.plot_kind == "forms" and chart.border_title.startswith(f"forms of {first} vs pH")
+        await pilot.press("g")                          # no solid can form in the demo: back to the start
         await settle(pilot)
         assert chart.border_title == "fraction vs pH · all systems"
 

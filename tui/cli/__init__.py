@@ -105,8 +105,8 @@ def _ensure_utf8_stderr() -> None:
 
 def _user_error(exc: BaseException) -> bool:
     """``exc`` was caused by what the user gave (bad input, a file), not by a bug."""
-    errors = sys.modules.get("chem.errors")             # loaded whenever the core ran
-    if errors is not None and isinstance(exc, errors.ChemError):
+    core = sys.modules.get("chem")                      # loaded whenever the core ran
+    if core is not None and isinstance(exc, core.ChemError):
         return True
     storage = sys.modules.get("tui.storage")
     return storage is not None and isinstance(exc, storage.StorageError)

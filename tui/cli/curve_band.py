@@ -1,11 +1,11 @@
-"""``protomix curve --uncertainty``: the 95 % band series of a curve (numbers from chem.uncertainty)."""
+"""``protomix curve --uncertainty``: the 95 % band series of a curve (numbers from :func:`chem.curve_band`)."""
 
 from __future__ import annotations
 
 
 def add_band(res) -> None:
     """Add ``NAME_lo``/``NAME_hi`` series for pH and every species series of ``res`` (in place)."""
-    from chem.uncertainty import Z95, DEFAULT_LOG_K_SD, DEFAULT_PKA_SD, curve_band
+    from chem import DEFAULT_LOG_K_SD, DEFAULT_PKA_SD, Z95, curve_band
 
     band = curve_band(res.curve)
     lo, hi = band.pH_limits(res.series["pH"])

@@ -3,7 +3,7 @@
 Kinds: titration (pH vs added titrant), capacity (buffer capacity vs pH),
 dilution (pH and species vs dilution factor), sweep (one amount or the
 temperature varied), distribution (fractions vs pH) and logc (log C vs pH).
-All numbers come from :mod:`chem.curves` and :mod:`chem.diagrams`; this
+All numbers come from chem's curves and diagrams (``chem.titration``, ``chem.solubility`` ...); this
 module only reads options, draws and writes.
 """
 
@@ -146,7 +146,7 @@ class _Result:
 
 
 def _fail(message: str):
-    from chem.curves import CurveError
+    from chem import CurveError
 
     raise CurveError(message)
 
@@ -178,7 +178,7 @@ def _number(text: str | None, option: str, what: str, default: float | None = No
             _fail(f"{option} is needed")
         return default
     if what == "temperature":                           # one reading and range for every command
-        from chem.units import parse_temperature
+        from chem import parse_temperature
 
         return parse_temperature(text, option)
     try:
@@ -188,7 +188,7 @@ def _number(text: str | None, option: str, what: str, default: float | None = No
     if not math.isfinite(value):
         _fail(f"{option}: '{text}' is not a finite number")
     if what == "pH":                                    # one pH range for every command
-        from chem.limits import check_ph
+        from chem import check_ph
 
         return check_ph(value, option)
     return value
@@ -235,8 +235,7 @@ def p_label(species: str) -> str:
 
 
 def _titration(args, mixture, progress) -> _Result:
-    from chem import parse_concentration, parse_volume
-    from chem.curves import find_reagent, titration
+    from chem import find_reagent, parse_concentration, parse_volume, titration
 
     titrant = find_reagent(args.titrant, mixture)
     conc = parse_concentration(args.titrant_conc, molar_mass=titrant.molar_mass)
@@ -282,19 +281,18 @@ def _ph_grid(args):
     """The pH grid of --from/--to/--points for the pH-axis kinds (default 0..14)."""
     import numpy as np
 
-    from chem.limits import PH_MAX, PH_MIN
+    from chem import HELD_PH_RANGE, PH_MAX, PH_MIN
 
     held = args.kind in ("solubility", "saturation") or (args.kind == "distribution" and args.system)
-    lo = _number(args.start, "--from", "pH", 2.0 if held else PH_MIN)
-    hi = _number(args.stop, "--to", "pH", 12.0 if held else PH_MAX)
+    lo = _number(args.start, "--from", "pH", HELD_PH_RANGE[0] if held else PH_MIN)
+    hi = _number(args.stop, "--to", "pH", HELD_PH_RANGE[1] if held else PH_MAX)
     if not hi > lo:
         _fail(f"--from must be below --to (got {lo:g} and {hi:g})")
     return np.linspace(lo, hi, args.points or _DEFAULT_POINTS[args.kind])
 
 
 def _capacity(args, mixture, progress) -> _Result:
-    from chem import format_molar, solve
-    from chem.curves import buffer_capacity, buffer_capacity_at
+    from chem import buffer_capacity, buffer_capacity_at, format_molar, solve
 
     grid = _ph_grid(args)
     cap = buffer_capacity(mixture, grid, progress=progress)
@@ -312,7 +310,7 @@ def _capacity(args, mixture, progress) -> _Result:
 def _dilution(args, mixture, progress) -> _Result:
     import numpy as np
 
-    from chem.curves import dilution
+    from chem import dilution
 
     lo = _number(args.start, "--from", "dilution factor", 1.0)
     hi = _number(args.stop, "--to", "dilution factor", 1000.0)
@@ -331,10 +329,7 @@ def _dilution(args, mixture, progress) -> _Result:
 def _sweep(args, mixture, progress) -> _Result:
     import numpy as np
 
-    from chem import parse_concentration
-    from chem.curves import ingredient_index, sweep
-
-    from chem.curves import gas_named
+    from chem import gas_named, ingredient_index, parse_concentration, sweep
 
     points = args.points or _DEFAULT_POINTS["sweep"]
     gas = gas_named(mixture, args.vary)
@@ -343,13 +338,11 @@ def _sweep(args, mixture, progress) -> _Result:
         hi = _number(args.stop, "--to", "temperature")
         vary, xlabel = "temperature", "temperature (°C)"
     elif gas is not None:
-        from chem.units import parse_pressure
+        from chem import parse_pressure
 
         def pressure(text, option):
-            if text is not None and text.strip() in ("0", "0.0", "0 atm", "0 %", "0 ppm", "0 uatm"):
-                return 0.0
             try:
-                return parse_pressure(text)
+                return parse_pressure(text, allow_zero=True)
             except Exception as exc:  # noqa: BLE001 - a ChemError with the reason
                 _fail(f"{option}: {exc}")
 
@@ -382,8 +375,7 @@ def _sweep(args, mixture, progress) -> _Result:
 
 
 def _diagram(args, mixture, progress) -> _Result:
-    from chem import solve
-    from chem.diagrams import distribution, log_concentrations
+    from chem import distribution, log_concentrations, solve
 
     grid = _ph_grid(args)
     eq = solve(mixture)
@@ -405,7 +397,7 @@ def _diagram(args, mixture, progress) -> _Result:
 
 def _held_diagram(args, mixture, grid, eq) -> _Result:
     """distribution --system, solubility and saturation: the pH imposed at each point."""
-    from chem.diagrams import saturation, solubility, system_distribution
+    from chem import saturation, solubility, system_distribution
 
     if args.kind == "distribution":
         d = system_distribution(mixture, args.system, grid)
@@ -485,7 +477,7 @@ def render_plot(res: _Result, width: int, height: int, *, color: bool, utf8: boo
     import numpy as np
     import plotext as plt
 
-    from chem.limits import LOG_C_FLOOR
+    from chem import LOG_C_FLOOR
     from tui.text import printable
 
     plt.clear_figure()

@@ -1,6 +1,6 @@
 """``protomix fit SAMPLE.toml DATA.csv ...``: fit a measured titration, with standard errors.
 
-All the work happens in :mod:`chem.fit`; this module reads the options,
+All the work happens in :func:`chem.fit_titration`; this module reads the options,
 prints the result and writes the fitted sample.
 """
 
@@ -69,8 +69,8 @@ def _clip(text: str, width: int) -> str:
 
 
 def render_fit(result, sample_label: str) -> str:
-    """The human-readable report of a :class:`chem.fit.FitResult`, at most 80 columns wide."""
-    from chem.fit import clean_text
+    """The human-readable report of a :class:`chem.FitResult`, at most 80 columns wide."""
+    from chem import clean_text
 
     data = result.data
     n, k = len(data), len(result.parameters)
@@ -129,9 +129,8 @@ def _largest(result) -> str:
 
 
 def run(args) -> int:
-    from chem import load_preset, parse_concentration, parse_volume, save_preset
-    from chem.curves import find_reagent
-    from chem.fit import fit_titration, read_titration
+    from chem import (find_reagent, fit_titration, load_preset, parse_concentration, parse_volume, read_titration,
+                      save_preset)
 
     if args.save and not args.force and Path(args.save).exists():
         print(f"protomix: error: {args.save} already exists; not overwritten (add --force to replace it)",

@@ -39,7 +39,7 @@ def _count(n: int, noun: str) -> str:
 
 def run(args) -> int:
     from chem import load_library
-    from chem.model import AcidBaseSystem
+    from chem import AcidBaseSystem
     from tui.text import one_line, printable
 
     lib = load_library()

@@ -1,7 +1,7 @@
 """``protomix recipe``: design a buffer that has its pH at the working temperature.
 
 All chemistry (the design, unit reading, the shortcut comparison) happens in
-:mod:`chem.recipe`; this module reads the options and prints the result.
+chem (:func:`chem.design_buffer`, :func:`chem.design_metal_buffer`); this module reads the options and prints the result.
 """
 
 from __future__ import annotations
@@ -30,11 +30,10 @@ EPILOG = ("Amounts are for the whole final volume: dissolve, add the listed volu
 
 
 def _ph(text: str) -> float:
-    """argparse type of --pH: a number on the pH scale every command shares (chem.limits)."""
+    """argparse type of --pH: a number on the pH scale every command shares (:func:`chem.check_ph`)."""
     import argparse
 
-    from chem.errors import ChemError
-    from chem.limits import check_ph
+    from chem import ChemError, check_ph
 
     try:
         return check_ph(float(text), "pH")
@@ -46,8 +45,7 @@ def _celsius(text: str) -> float:
     """argparse type of --temp and --check-temp: 37, "37 °C", "37C" or "37 ℃", within the model's range."""
     import argparse
 
-    from chem.errors import ChemError
-    from chem.units import parse_temperature
+    from chem import ChemError, parse_temperature
 
     try:
         return parse_temperature(text)
@@ -124,7 +122,7 @@ def add_arguments(parser) -> None:
 
 
 def render_recipe(recipe) -> str:
-    """The human-readable report of a :class:`chem.recipe.Recipe`."""
+    """The human-readable report of a :class:`chem.Recipe`."""
     from chem import format_molar
 
     eq = recipe.equilibrium
@@ -203,8 +201,7 @@ def render_suggestions(suggestions, target: float, t_c: float) -> str:
 
 
 def run(args) -> int:
-    from chem.limits import STANDARD_TEMPERATURE_C
-    from chem.recipe import design_buffer, suggest_systems
+    from chem import STANDARD_TEMPERATURE_C, design_buffer, suggest_systems
     from tui.text import printable, safe_json
 
     problem = check_options(args)
@@ -231,7 +228,7 @@ def run(args) -> int:
               file=sys.stderr)
         return 2
     if args.save is not None:
-        from chem.presets import check_save_target
+        from chem import check_save_target
 
         if not args.force and os.path.lexists(args.save):
             print(f"protomix: error: {printable(args.save)} already exists; not overwritten "
@@ -239,7 +236,7 @@ def run(args) -> int:
             return 2
         check_save_target(args.save, overwrite=args.force)       # before the work: fail with one line
     if args.free is not None:
-        from chem.recipe import design_metal_buffer
+        from chem import design_metal_buffer
 
         form = args.form if args.form != "reagents" else "titrant"
         recipe = design_metal_buffer(

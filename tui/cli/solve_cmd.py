@@ -147,7 +147,7 @@ def run(args) -> int:
 
 
 def _uncertainty(eq, args):
-    from chem.uncertainty import UncertaintyError, propagate
+    from chem import UncertaintyError, propagate
 
     if args.monte_carlo is not None:
         if not args.uncertainty:

@@ -5,7 +5,7 @@ from __future__ import annotations
 
 def uncertainty_lines(unc, *, species: bool = True, limit: int = 4) -> list[str]:
     """pH ± sd with the 95 % interval, the largest sources, which constants used the default sd."""
-    from chem.uncertainty import DEFAULT_LOG_K_SD, DEFAULT_PKA_SD
+    from chem import DEFAULT_LOG_K_SD, DEFAULT_PKA_SD
 
     lo, hi = unc.pH_interval_95
     how = ("first-order propagation" if unc.method == "first-order"

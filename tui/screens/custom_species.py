@@ -12,7 +12,6 @@ from textual.containers import Grid, Vertical
 from textual.widgets import Input, Label
 
 import chem
-from chem.presets import custom_reagent
 from tui.screens.base import Dialog
 from tui.text import printable
 from tui.widgets.amount_input import AmountInput
@@ -117,7 +116,7 @@ class CustomSpeciesForm(Dialog["chem.Ingredient | None"]):
             "protons": parse_int(self._value("protons") or str(len(pka)), "protons"),
             "counter_ions": parse_counter_ions(self._value("ions")),
         }
-        reagent = custom_reagent(entry, "custom species", self.library)
+        reagent = chem.custom_reagent(entry, "custom species", self.library)
         amount = self.query_one("#custom-amount", AmountInput)
         problem = amount.problem
         if problem is not None:

@@ -7,8 +7,8 @@ API:
     error); ``ctrl+g`` closes and shows the measured points on the titration plot;
     ``ctrl+l`` closes and loads the fitted sample into the flask (one undoable edit).
 
-Every number comes from :mod:`chem.fit`; the fields are read by chem (the file by
-:func:`chem.fit.read_titration`, the titrant by :func:`chem.curves.find_reagent`, amounts by
+Every number comes from :func:`chem.fit_titration`; the fields are read by chem (the file by
+:func:`chem.read_titration`, the titrant by :func:`chem.find_reagent`, amounts by
 :func:`chem.parse_concentration` and :func:`chem.parse_volume`).
 """
 
@@ -52,10 +52,10 @@ class FitOutcome:
 
     action: str
     request: FitRequest
-    data: "chem.fit.TitrationData"
+    data: "chem.TitrationData"
     settings: TitrationSettings
     """The titration as typed (after a fit, with the fitted titrant concentration)."""
-    result: "chem.fit.FitResult | None" = None
+    result: "chem.FitResult | None" = None
 
 
 def default_request(mixture: chem.Mixture, settings: TitrationSettings | None) -> FitRequest:
@@ -159,7 +159,7 @@ class FitForm(ModalScreen["FitOutcome | None"]):
         return FitRequest(text("path"), text("titrant"), text("conc"), text("sample"), text("vary"))
 
     def _data(self, path: str):
-        from chem.fit import read_titration
+        from chem import read_titration
 
         if self._data_cache is not None and self._data_cache[0] == path:
             return self._data_cache[1]
@@ -200,13 +200,13 @@ class FitForm(ModalScreen["FitOutcome | None"]):
         self._data(path)
 
     def _vary_ok(self, req: FitRequest) -> None:
-        from chem.fit import FitError, parse_parameter
+        from chem import FitError, parse_parameter
 
         params = req.parameters()
         if not params:
             raise FitError("give at least one parameter, e.g. amount:NAME; offset")
         try:
-            from chem.curves import find_reagent
+            from chem import find_reagent
 
             titrant = find_reagent(req.titrant, self.mixture, self.library) if req.titrant else None
         except chem.ChemError:
@@ -246,7 +246,7 @@ class FitForm(ModalScreen["FitOutcome | None"]):
 
     @work(thread=True, exclusive=True, group="fit", exit_on_error=False, description="fit")
     def _fit(self, req: FitRequest, data, titrant, conc: float, sample: float) -> None:
-        from chem.fit import fit_titration
+        from chem import fit_titration
 
         try:
             result = fit_titration(self.mixture, data, titrant, conc, sample, req.parameters())
@@ -289,7 +289,7 @@ class FitForm(ModalScreen["FitOutcome | None"]):
         self.dismiss(FitOutcome(action, req, data, TitrationSettings(req.titrant, conc, req.sample, to), result))
 
     def _params(self, req: FitRequest):
-        from chem.fit import parse_parameter
+        from chem import parse_parameter
 
         return [parse_parameter(p, self.mixture) for p in req.parameters()]
 

@@ -17,8 +17,7 @@ from textual.widgets import Input, Label
 from textual.widgets.option_list import Option
 
 import chem
-from chem.limits import AIR_GAS, AIR_PRESSURE
-from chem.units import format_pressure
+from chem import AIR_GAS, AIR_PRESSURE, format_pressure
 from tui.formula import shown_name, shown_unit
 from tui.screens.picker import PickerScreen
 from tui.text import printable

@@ -7,6 +7,13 @@ and the bench form of the recipe. Each change designs the recipe again with
 scipy), and the result shows what to weigh or pipette, the ionic strength, the buffer
 capacity, the Henderson–Hasselbalch shortcut's pH beside the exact one, and warnings.
 
+A free level ("Ca^2+=100 nM") makes it a metal buffer, as ``protomix recipe --free``: the
+system is then the chelator (EDTA, EGTA, NTA, citrate, ATP ...) at the total given, and
+:func:`chem.design_metal_buffer` solves how much of the metal's salt (and of the pH
+adjustment) gives that free level at that pH, temperature and ionic strength; the result
+also shows the free level reached and pM. A metal buffer's "reagents" form is made as
+"titrant" (the chelator's free acid and a strong base), as the line command does.
+
 API:
     ``RecipeForm(library, *, target_pH=None, temperature_c=None, activity="davies")``, a
     ModalScreen that dismisses with a :class:`chem.Recipe` ("load into flask": enter,
@@ -38,15 +45,16 @@ from textual.widgets import Button, Input, Label, Static
 from textual.worker import Worker, WorkerState, get_current_worker
 
 import chem
-from chem.limits import STANDARD_TEMPERATURE_C
+from chem import STANDARD_TEMPERATURE_C
 from tui.screens.base import Dialog
+from tui.cli.curve_cmd import p_label
 from tui.text import printable
 from tui.widgets.curve_kinds import read_celsius, read_ph
 
-if TYPE_CHECKING:                    # chem.recipe needs scipy.optimize (~0.5 s): loaded in the worker only
-    from chem.recipe import Recipe
+if TYPE_CHECKING:                    # the recipe designer needs scipy.optimize (~0.5 s): loaded in the worker only
+    from chem import Recipe
 
-#: The bench forms of a recipe, as :data:`chem.recipe.FORMS` (not imported here: it loads scipy).
+#: The bench forms of a recipe, as the recipe designer names them (not asked of chem here: that loads scipy).
 FORMS = ("reagents", "titrant", "stocks")
 #: Wait after a keystroke before designing (s): a burst of typing starts one design, not one per key.
 DESIGN_DELAY = 0.12
@@ -125,6 +133,29 @@ class RecipeAsk:
     salt: str
     form: str
     activity: str
+    free: str = ""
+    """A metal buffer's free level as typed ("Ca^2+=100 nM"), or "" for a pH buffer."""
+
+    @property
+    def design_form(self) -> str:
+        """The bench form the design uses (a metal buffer's "reagents" is made as "titrant")."""
+        return "titrant" if self.free and self.form == "reagents" else self.form
+
+
+def free_line(recipe: Recipe) -> Content | None:
+    """A metal buffer's free level: reached, wanted, and pM (−log10 of the free ion's activity); else None."""
+    if recipe.free_species is None:
+        return None
+    fm = chem.format_molar
+    eq = recipe.equilibrium
+    species = next((s for s in eq.species if s.name == recipe.free_species), None)
+    own = next((s for s in eq.species if species is not None and s.system == species.system), None)
+    level = ""
+    if species is not None and own is species:        # a metal's free ion: chem gives its level (pM)
+        level = f" · {p_label(recipe.free_species)} {eq.free_level(species.system):.3f}"
+    return Content.assemble(("free ", "bold"), (f"{recipe.free_species} {fm(recipe.free_reached, 4)}",
+                                                "bold $secondary"),
+                            f" (wanted {fm(recipe.free_target, 4)}){level}")
 
 
 def recipe_lines(recipe: Recipe) -> list[Content]:
@@ -151,6 +182,9 @@ def recipe_lines(recipe: Recipe) -> list[Content]:
     ionic = float(f"{recipe.ionic_strength:.3g}")
     state = ("converged", "$success") if recipe.equilibrium.converged else ("NOT CONVERGED", "bold $error")
     lines.append(Content.assemble(f"ionic strength {fm(ionic)} · buffer capacity {fm(beta)}/pH · ", state))
+    free = free_line(recipe)
+    if free is not None:
+        lines.append(free)
     for tc, ph in recipe.checks:
         lines.append(Content(f"same solution at {tc:g} °C: pH {ph:.3f}"))
     for notice in recipe.cautions:
@@ -186,7 +220,7 @@ class RecipeForm(Dialog["Recipe | tuple[str, Recipe] | None"]):
     #recipe-grid Input.-invalid {
         background: $error 25%;
     }
-    #recipe-salt {
+    #recipe-salt, #recipe-free {
         column-span: 3;
     }
     #recipe-status {
@@ -195,7 +229,7 @@ class RecipeForm(Dialog["Recipe | tuple[str, Recipe] | None"]):
     }
     #recipe-scroll {
         height: auto;
-        max-height: 11;
+        max-height: 10;
     }
     #recipe-scroll.-stale {
         opacity: 60%;
@@ -236,7 +270,7 @@ class RecipeForm(Dialog["Recipe | tuple[str, Recipe] | None"]):
         error: str | None
 
     def __init__(self, library: chem.Library, *, target_pH: float | None = None, temperature_c: float | None = None,
-                 activity: str = "davies") -> None:
+                 activity: str = "davies", free: str = "") -> None:
         """Create the form.
 
         Args:
@@ -244,13 +278,14 @@ class RecipeForm(Dialog["Recipe | tuple[str, Recipe] | None"]):
             target_pH: pH offered at first (None: the field starts empty).
             temperature_c: Working temperature offered at first, °C.
             activity: Activity model of the design (the flask's).
+            free: A metal buffer's free level offered at first ("" : a pH buffer).
         """
         super().__init__()
         self.library = library
         self.activity = activity
         self._initial = {"system": "", "ph": "" if target_pH is None else f"{target_pH:g}",
                          "temp": f"{STANDARD_TEMPERATURE_C if temperature_c is None else temperature_c:g}",
-                         "total": DEFAULT_TOTAL, "volume": DEFAULT_VOLUME}
+                         "total": DEFAULT_TOTAL, "volume": DEFAULT_VOLUME, "free": free}
         self.recipe: Recipe | None = None
         """The recipe for the fields as they are now, or None (not designed yet, or they cannot be)."""
         self._generation = 0
@@ -260,7 +295,7 @@ class RecipeForm(Dialog["Recipe | tuple[str, Recipe] | None"]):
 
     def compose(self) -> ComposeResult:
         with Vertical(classes="dialog recipe"):
-            yield Label("Design a buffer", classes="dialog-heading")
+            yield Label("Design a buffer (a free metal level makes it a metal buffer)", classes="dialog-heading")
             with Grid(id="recipe-grid"):
                 for key, label, hint in self.FIELDS:
                     yield Label(label, classes="field-label")
@@ -270,6 +305,9 @@ class RecipeForm(Dialog["Recipe | tuple[str, Recipe] | None"]):
                 yield Label("salt", classes="field-label")
                 yield Input(placeholder="background salt, optional, e.g. NaCl 150 mM", id="recipe-salt",
                             compact=True)
+                yield Label("free level", classes="field-label")
+                yield Input(self._initial["free"], placeholder="metal buffer, optional, e.g. Ca^2+=100 nM "
+                            "(system: the chelator)", id="recipe-free", compact=True)
             yield Label("", id="recipe-status")
             with VerticalScroll(id="recipe-scroll", can_focus=False):
                 yield Static("", id="recipe-result")
@@ -302,6 +340,9 @@ class RecipeForm(Dialog["Recipe | tuple[str, Recipe] | None"]):
         check("temp", "temperature", lambda s: read_celsius(s, "temperature"))
         check("total", "total concentration", lambda s: chem.parse_concentration(s) if s else _missing())
         check("volume", "final volume", lambda s: chem.parse_volume(s) if s else _missing())
+        if self._text("free") and not self._text("system") and "system" not in problems:
+            problems["system"] = ("system: a metal buffer needs the chelator's system (e.g. egta, edta, nta, "
+                                  "citrate, atp)")
         return problems
 
     def ask(self) -> RecipeAsk:
@@ -309,7 +350,7 @@ class RecipeForm(Dialog["Recipe | tuple[str, Recipe] | None"]):
         return RecipeAsk(system=self._text("system") or None, target_pH=read_ph(self._text("ph"), "target pH"),
                          temperature_c=read_celsius(self._text("temp")), total=self._text("total"),
                          volume=self._text("volume"), salt=self._text("salt"),
-                         form=self.query_one(Cycler).value, activity=self.activity)
+                         form=self.query_one(Cycler).value, activity=self.activity, free=self._text("free"))
 
     # -- designing ---------------------------------------------------------------------------
     @on(Input.Changed)
@@ -340,10 +381,17 @@ class RecipeForm(Dialog["Recipe | tuple[str, Recipe] | None"]):
     @work(thread=True, exclusive=True, group="recipe", exit_on_error=False, description="design a buffer")
     def _design(self, generation: int, ask: RecipeAsk) -> None:
         try:
-            recipe = chem.design_buffer(ask.system, ask.target_pH, temperature_c=ask.temperature_c,
-                                        total=ask.total, volume=ask.volume, form=ask.form,
-                                        salts=(ask.salt,) if ask.salt else (), activity=ask.activity,
-                                        library=self.library)
+            if ask.free:
+                recipe = chem.design_metal_buffer(ask.free, ask.system, ask.target_pH,
+                                                  temperature_c=ask.temperature_c, total=ask.total,
+                                                  volume=ask.volume, form=ask.design_form,
+                                                  salts=(ask.salt,) if ask.salt else (), activity=ask.activity,
+                                                  library=self.library)
+            else:
+                recipe = chem.design_buffer(ask.system, ask.target_pH, temperature_c=ask.temperature_c,
+                                            total=ask.total, volume=ask.volume, form=ask.form,
+                                            salts=(ask.salt,) if ask.salt else (), activity=ask.activity,
+                                            library=self.library)
         except chem.ChemError as exc:
             recipe, error = None, str(exc)
         else:
@@ -360,11 +408,13 @@ class RecipeForm(Dialog["Recipe | tuple[str, Recipe] | None"]):
             self._then = None
             self._status(message.error or "", error=True)
             return
-        self.recipe = message.recipe
-        self.query_one("#recipe-result", Static).update(Content("\n").join(recipe_lines(message.recipe)))
+        recipe = self.recipe = message.recipe
+        self.query_one("#recipe-result", Static).update(Content("\n").join(recipe_lines(recipe)))
         self.query_one("#recipe-scroll").remove_class("-stale")
-        self._status(f"pH {message.recipe.pH:.3f} at {message.recipe.temperature_c:g} °C with "
-                     f"{message.recipe.system.name} · enter loads it into the flask")
+        free = (f"free {recipe.free_species} {chem.format_molar(recipe.free_reached, 3)} · "
+                if recipe.free_species is not None else "")
+        self._status(f"{free}pH {recipe.pH:.3f} at {recipe.temperature_c:g} °C with "
+                     f"{recipe.system.name} · enter loads it into the flask")
         if self._then is not None:
             self.action_finish(self._then)
 

@@ -4,7 +4,10 @@ API:
     ``TitrationSetup(mixture, settings=None, library=None)``, a ModalScreen that dismisses
     with a :class:`~tui.widgets.curve_kinds.TitrationSettings` (enter, once every field is
     valid) or None (escape). ``settings`` fills the fields (None: 0.1 M NaOH into 25 mL up to
-    50 mL). Every field is read by chem (the titrant by :func:`chem.curves.find_reagent`, so a
+    50 mL). "follow" names a species (e.g. ``Ca^2+``) whose level pX = −log10 a(X) is plotted
+    instead of the pH, with its equivalence points (a complexometric titration); empty: the pH.
+    It must be a species of the titration (the flask's and the titrant's, from
+    :func:`chem.tableau`). Every field is read by chem (the titrant by :func:`chem.find_reagent`, so a
     custom reagent of ``mixture`` counts; amounts by :func:`chem.parse_concentration` and
     :func:`chem.parse_volume`); a bad entry is marked and explained, and enter is refused.
 
@@ -14,6 +17,8 @@ While the titrant is typed, matching reagents of the library are listed under it
 """
 
 from __future__ import annotations
+
+import difflib
 
 from textual import on
 from textual.app import ComposeResult
@@ -66,6 +71,7 @@ class TitrationSetup(Dialog["TitrationSettings | None"]):
         ("conc", "stock concentration", "e.g. 0.1 M"),
         ("sample", "sample volume", "of the flask's mixture, e.g. 25 mL"),
         ("to", "titrate up to", "last volume of titrant, e.g. 50 mL"),
+        ("track", "follow species", "optional, e.g. Ca^2+ (plots pCa; empty: pH)"),
     )
 
     def __init__(self, mixture: chem.Mixture, settings: TitrationSettings | None = None,
@@ -84,7 +90,7 @@ class TitrationSetup(Dialog["TitrationSettings | None"]):
 
     def compose(self) -> ComposeResult:
         start = {"titrant": self.settings.titrant_name, "conc": self.settings.titrant_conc_text,
-                 "sample": self.settings.sample_text, "to": self.settings.to_text}
+                 "sample": self.settings.sample_text, "to": self.settings.to_text, "track": self.settings.track}
         with Vertical(classes="dialog titration"):
             yield Label("Titrate a sample of the flask", classes="dialog-heading")
             for key, label, hint in self.FIELDS:
@@ -108,7 +114,7 @@ class TitrationSetup(Dialog["TitrationSettings | None"]):
         def text(key: str) -> str:
             return self.query_one(f"#titration-{key}", Input).value.strip()
 
-        return TitrationSettings(text("titrant"), text("conc"), text("sample"), text("to"))
+        return TitrationSettings(text("titrant"), text("conc"), text("sample"), text("to"), text("track"))
 
     def problems(self) -> dict[str, str]:
         """Field key -> one-line problem, for every field chem refuses."""
@@ -126,7 +132,24 @@ class TitrationSetup(Dialog["TitrationSettings | None"]):
                 read()
             except chem.ChemError as exc:
                 out[key] = named(labels[key], exc)
+        problem = self._track_problem(settings.track, titrant)
+        if problem:
+            out["track"] = f"{labels['track']}: {problem}"
         return out
+
+    def _track_problem(self, track: str, titrant: chem.Reagent | None) -> str | None:
+        """Why ``track`` cannot be followed in this titration, or None (also when the titrant is not known yet)."""
+        if not track or titrant is None:
+            return None
+        try:
+            names = chem.tableau(self.mixture.with_ingredient(chem.Ingredient(titrant, 1.0))).species
+        except chem.ChemError:
+            return None                               # the titration itself will say what is wrong
+        if track in names:
+            return None
+        close = difflib.get_close_matches(track, names, n=3, cutoff=0.5)
+        hint = f" (did you mean {', '.join(close)}?)" if close else ""
+        return f"no species '{track}' in the sample or the titrant{hint}"
 
     def _check(self) -> dict[str, str]:
         """Mark the fields chem refuses and show the first problem; returns them all."""

@@ -3,7 +3,7 @@
 These are :class:`~tui.widgets.plot_kinds.PlotKind` objects like the ones in
 :data:`~tui.widgets.plot_kinds.PLOT_KINDS`, drawn the same way (plotext text
 built in a worker thread, legend lines under it). Every number comes from
-:mod:`chem.curves`; amounts and volumes typed by the user are read by
+chem (:func:`chem.titration`, :func:`chem.sweep` ...); amounts and volumes typed by the user are read by
 :func:`chem.parse_concentration` and :func:`chem.parse_volume`. This module
 only draws.
 
@@ -12,10 +12,13 @@ API:
     ``dilution_kind()`` -> :class:`PlotKind` (ids "titration", "capacity", "sweep", "dilution").
     ``curve_kinds(titration=None, sweep=None)`` -> those four, in chart order.
     ``draw_kind`` (from :mod:`plot_kinds`, re-exported) -> :class:`Drawing` for any kind.
-    ``TitrationSettings`` / ``SweepSettings``: what the setup forms return (text as typed);
+    ``TitrationSettings`` / ``SweepSettings``: what the setup forms return (text as typed); a titration
+    may follow a species (``track="Ca^2+"``: pCa is plotted, with its equivalence points), a sweep
+    may vary a gas's partial pressure (``vary="CO2"``, pressures typed with units) and show every
+    solid's saturation index (``show="SI"``, drawn by :func:`tui.widgets.line_plot.draw_lines`);
     ``default_titration(result)`` / ``default_sweep(mixture)``: the settings used when none are set.
     ``read_number(text, what)`` / ``read_celsius(text, what)``: numbers typed in forms (the temperature
-    read and range-checked by :func:`chem.units.parse_temperature`, as in the line commands).
+    read and range-checked by :func:`chem.parse_temperature`, as in the line commands).
     A ``None`` setting means "the default for the mixture on display", decided at build time.
 
 The explorer (``tui/app.py``) lists these after :data:`PLOT_KINDS`, imports this module on first
@@ -36,9 +39,8 @@ import numpy as np
 from textual.worker import NoActiveWorker, get_current_worker
 
 import chem
-import chem.units
-from chem import curves
-from chem.limits import PH_MAX, PH_MIN, check_ph, neutral_ph, ph_grid
+from chem import PH_MAX, PH_MIN, check_ph, neutral_ph, ph_grid
+from tui.cli.curve_cmd import p_label
 from tui.widgets.plot_kinds import (_BOX_TO_ASCII, RGB, Drawing, LegendLine, PlotKind, PlotRequest, draw,
                                     figure_text, grid_points, simplify)
 from tui.widgets.plot_kinds import draw_kind  # noqa: F401  (re-exported: one entry point for every kind)
@@ -55,6 +57,8 @@ DEFAULT_T_RANGE = ("5", "50")
 DEFAULT_SWEEP_POINTS = 101
 #: Top of the default sweep of an ingredient whose amount is zero (otherwise twice its amount).
 DEFAULT_AMOUNT_TOP = "10 mM"
+#: Top of the default sweep of a gas not held over the solution (otherwise twice its pressure).
+DEFAULT_GAS_TOP = "1 %"
 #: Most points a sweep may ask for (each is solved; more than the plot shows is wasted).
 MAX_SWEEP_POINTS = 2000
 #: Dilution factors plotted: from undiluted to this.
@@ -63,6 +67,8 @@ DILUTION_TO = 1000.0
 MIN_PH_SPAN = 1.0
 #: The buffer-capacity plot's y axis is scaled to β over this pH range (water dominates outside).
 SCALE_PH = (3.0, 11.0)
+#: Most units of saturation index a sweep's SI plot shows (from the top of the data; SI = 0 always in view).
+SI_SPAN = 20
 #: Cap on the titration points after refinement of its steep parts (keeps a build short).
 MAX_TITRATION_POINTS = 3000
 
@@ -86,22 +92,22 @@ def read_number(text: str, what: str) -> float:
 
 
 def read_ph(text: str, what: str = "pH") -> float:
-    """A pH typed into a form, on the pH scale every command shares (:mod:`chem.limits`)."""
+    """A pH typed into a form, on the pH scale every command shares (:func:`chem.check_ph`)."""
     return check_ph(read_number(text, what), what)
 
 
 def read_celsius(text: str, what: str = "temperature") -> float:
     """A temperature in °C typed as ``37``, ``37 °C``, ``37C`` or ``37 ℃``, within the model's range.
 
-    The same reading and the same range as every line command (:func:`chem.units.parse_temperature`).
+    The same reading and the same range as every line command (:func:`chem.parse_temperature`).
     """
-    return chem.units.parse_temperature(text, what)
+    return chem.parse_temperature(text, what)
 
 
 def _positive_volume(text: str, what: str) -> float:
     litres = chem.parse_volume(text)
     if not litres > 0:
-        raise curves.CurveError(f"{what}: must be more than zero (got '{text.strip()}')")
+        raise chem.CurveError(f"{what}: must be more than zero (got '{text.strip()}')")
     return litres
 
 
@@ -117,19 +123,26 @@ class TitrationSettings:
     """Volume of the flask's mixture titrated, e.g. "25 mL"."""
     to_text: str
     """Last volume of titrant added, e.g. "50 mL"."""
+    track: str = ""
+    """A species whose level pX = −log10 a(X) is plotted instead of the pH (e.g. "Ca^2+"), or ""."""
+
+    @property
+    def level_name(self) -> str:
+        """What the y axis shows: "pH", or the followed species' level ("pCa")."""
+        return p_label(self.track.strip()) if self.track.strip() else "pH"
 
     def titrant(self, mixture: chem.Mixture, library: chem.Library | None = None) -> chem.Reagent:
         """The titrant reagent; raises :class:`chem.ChemError` with a one-line message."""
         if not self.titrant_name.strip():
-            raise curves.CurveError("titrant: give a reagent name, e.g. NaOH")
-        return curves.find_reagent(self.titrant_name.strip(), mixture, library)
+            raise chem.CurveError("titrant: give a reagent name, e.g. NaOH")
+        return chem.find_reagent(self.titrant_name.strip(), mixture, library)
 
     def titrant_conc(self, titrant: chem.Reagent | None) -> float:
         """Stock concentration, mol/L (mass units need the titrant's molar mass)."""
         conc = chem.parse_concentration(self.titrant_conc_text,
                                         molar_mass=None if titrant is None else titrant.molar_mass)
         if not conc > 0:
-            raise curves.CurveError(f"stock concentration: must be more than zero "
+            raise chem.CurveError(f"stock concentration: must be more than zero "
                                     f"(got '{self.titrant_conc_text.strip()}')")
         return conc
 
@@ -159,27 +172,36 @@ def default_titration(result: chem.Equilibrium) -> TitrationSettings:
 
 @dataclass(frozen=True)
 class SweepSettings:
-    """A sweep as the user typed it: what varies (an ingredient or "temperature"), from, to, points."""
+    """A sweep as the user typed it: what varies (an ingredient, "temperature" or a gas), from, to, points,
+    and what is plotted (the pH, or the saturation index of every candidate solid)."""
 
     vary: str
-    """Ingredient name (reagent name, alias or formula) or "temperature"."""
+    """Ingredient name (reagent name, alias or formula), "temperature", or a gas (e.g. "CO2")."""
     from_text: str
-    """Start: an amount ("0 mM") or a temperature ("5", "5 °C")."""
+    """Start: an amount ("0 mM"), a temperature ("5", "5 °C") or a gas pressure ("0", "420 uatm", "1 %")."""
     to_text: str
     points: int = DEFAULT_SWEEP_POINTS
+    show: str = "pH"
+    """What the plot shows: "pH", or "SI" (saturation index of every candidate solid)."""
 
     @property
     def is_temperature(self) -> bool:
         return self.vary.strip().casefold() == "temperature"
 
+    def gas(self, mixture: chem.Mixture) -> chem.Gas | None:
+        """The gas whose partial pressure varies (held over the solution at each value), or None."""
+        return None if self.is_temperature else chem.gas_named(mixture, self.vary.strip())
+
     def ingredient(self, mixture: chem.Mixture) -> chem.Ingredient:
         """The ingredient that varies; raises :class:`chem.ChemError` if the mixture has none by that name."""
-        return mixture.ingredients[curves.ingredient_index(mixture, self.vary)]
+        return mixture.ingredients[chem.ingredient_index(mixture, self.vary)]
 
     def value(self, text: str, mixture: chem.Mixture, what: str) -> float:
-        """One end of the range: mol/L of the ingredient, or °C (checked against the model's range)."""
+        """One end of the range: mol/L of the ingredient, °C (checked against the model's range) or atm."""
         if self.is_temperature:
             return read_celsius(text, what)             # chem's reading, range and message
+        if self.gas(mixture) is not None:
+            return chem.parse_pressure(text, allow_zero=True)
         reagent = self.ingredient(mixture).reagent
         return chem.parse_concentration(text, molar_mass=reagent.molar_mass)
 
@@ -187,17 +209,19 @@ class SweepSettings:
         """``points``, if it is a whole number in the range a sweep may ask for."""
         if isinstance(self.points, bool) or not isinstance(self.points, int) or \
                 not 2 <= self.points <= MAX_SWEEP_POINTS:
-            raise curves.CurveError(f"points must be a whole number from 2 to {MAX_SWEEP_POINTS} "
+            raise chem.CurveError(f"points must be a whole number from 2 to {MAX_SWEEP_POINTS} "
                                     f"(got {self.points!r})")
         return self.points
 
     def resolve(self, mixture: chem.Mixture) -> tuple[str, np.ndarray]:
         """(what varies, for :func:`chem.sweep`, and the values); raises :class:`chem.ChemError`."""
-        vary = "temperature" if self.is_temperature else self.ingredient(mixture).reagent.name
+        gas = self.gas(mixture)
+        vary = ("temperature" if self.is_temperature else gas.name if gas is not None
+                else self.ingredient(mixture).reagent.name)
         lo = self.value(self.from_text, mixture, "from")
         hi = self.value(self.to_text, mixture, "to")
         if not hi > lo:
-            raise curves.CurveError(f"'from' must be below 'to' (got {self.from_text.strip()} and "
+            raise chem.CurveError(f"'from' must be below 'to' (got {self.from_text.strip()} and "
                                     f"{self.to_text.strip()})")
         return vary, np.linspace(lo, hi, self.check_points())
 
@@ -205,14 +229,19 @@ class SweepSettings:
 def default_sweep(mixture: chem.Mixture, vary: str | None = None) -> SweepSettings:
     """The default sweep of ``vary`` (default: the first ingredient, or the temperature in an empty flask).
 
-    An ingredient runs from none to twice its amount; the temperature from 5 to 50 °C.
+    An ingredient runs from none to twice its amount; the temperature from 5 to 50 °C; a gas from
+    none to twice the pressure it is held at (:data:`DEFAULT_GAS_TOP` when it is not held).
     """
     names = [i.reagent.name for i in mixture.ingredients]
     if vary is None:
         vary = names[0] if names else "temperature"
     if vary.strip().casefold() == "temperature":
         return SweepSettings("temperature", *DEFAULT_T_RANGE)
-    ingredient = mixture.ingredients[curves.ingredient_index(mixture, vary)]
+    gas = chem.gas_named(mixture, vary.strip())
+    if gas is not None:
+        held = next((g.pressure_atm for g in mixture.gases if g.gas.name == gas.name), None)
+        return SweepSettings(gas.name, "0", DEFAULT_GAS_TOP if held is None else f"{2 * held:.3g} atm")
+    ingredient = mixture.ingredients[chem.ingredient_index(mixture, vary)]
     top = chem.format_molar(2 * ingredient.conc) if ingredient.conc > 0 else DEFAULT_AMOUNT_TOP
     return SweepSettings(ingredient.reagent.name, "0", top)
 
@@ -401,7 +430,7 @@ def _y_most(canvas_rows: int) -> int:
 
 
 def _still_wanted(_fraction: float) -> bool:
-    """``progress`` for chem.curves: stop computing once the worker asking was cancelled."""
+    """``progress`` for chem's curves: stop computing once the worker asking was cancelled."""
     try:
         return not get_current_worker().is_cancelled
     except NoActiveWorker:
@@ -414,25 +443,33 @@ def _still_wanted(_fraction: float) -> bool:
 
 def build_titration(result: chem.Equilibrium, request: PlotRequest,
                     settings: TitrationSettings | None = None) -> Drawing:
-    """pH vs titrant added, with each equivalence point marked and listed under the plot."""
+    """pH (or a followed species' pX) vs titrant added, each equivalence point marked and listed under the plot.
+
+    With ``settings.track`` (e.g. "Ca^2+", a complexometric titration) the y axis is that
+    species' level pX = −log10 a(X) and the equivalence points are those found on it by chem.
+    """
     settings = settings or default_titration(result)
     mixture = result.mixture
     titrant, conc, sample, to = settings.resolve(mixture)
+    track = settings.track.strip() or None
+    level = settings.level_name
     n = grid_points(request.width)
     curve = chem.titration(mixture, titrant, conc, sample, to, points=n,
-                           max_points=max(n, MAX_TITRATION_POINTS), progress=_still_wanted)
+                           max_points=max(n, MAX_TITRATION_POINTS), track=track, progress=_still_wanted)
+    y = curve.level if track else curve.pH
     eqp = curve.equivalence_points
     many = len(eqp) > 1
     marks = [Mark(e.volume_mL, f"EP{i + 1}" if many else "EP") for i, e in enumerate(eqp)]
-    notes = [f"{'EP' + str(i + 1) if many else 'equivalence'} {e.volume_mL:.3f} mL, pH {e.pH:.2f}"
+    notes = [f"{'EP' + str(i + 1) if many else 'equivalence'} {e.volume_mL:.3f} mL, "
+             + (f"{level} {e.level:.2f} (pH {e.pH:.2f})" if track else f"pH {e.pH:.2f}")
              for i, e in enumerate(eqp)] or [f"no clear equivalence point up to {settings.to_text.strip()}"]
     notes += _unconverged(curve.converged)
-    first = _series_line(request, f"pH · {settings.titrant_conc_text.strip()} {titrant.name} into "
+    first = _series_line(request, f"{level} · {settings.titrant_conc_text.strip()} {titrant.name} into "
                                   f"{settings.sample_text.strip()}")
     legend = _notes(first, notes, request)
     x = np.asarray(curve.x)
-    ylim, yticks = ph_axis(curve.pH, _y_most(request.height - len(legend)))
-    return draw_xy(x, curve.pH, request, xlabel="titrant added (mL)", ylabel="pH",
+    ylim, yticks = ph_axis(y, _y_most(request.height - len(legend)))
+    return draw_xy(x, y, request, xlabel="titrant added (mL)", ylabel=level,
                    xlim=(float(x[0]), float(x[-1])), xticks=_x_ticks(request, float(x[0]), float(x[-1]), 5),
                    xtick_label=lambda t: f"{t:g}", ylim=ylim, yticks=yticks, legend=legend, marks=marks)
 
@@ -465,16 +502,27 @@ def build_sweep(result: chem.Equilibrium, request: PlotRequest, settings: SweepS
     mixture = result.mixture
     settings = settings or default_sweep(mixture)
     vary, values = settings.resolve(mixture)
+    gas = settings.gas(mixture)
     curve = chem.sweep(mixture, vary, values, progress=_still_wanted)
     x = np.asarray(curve.x)
     lo, hi = float(x[0]), float(x[-1])
     if settings.is_temperature:
         now, xlabel, label, label_width = mixture.temperature_c, "temperature (°C)", lambda t: f"{t:g}", 4
         now_text = f"now {now:g} °C"
+    elif gas is not None:
+        held = next((g for g in mixture.gases if g.gas.name == gas.name), None)
+        state = next((g for g in result.gases if g.name == gas.name), None)
+        now = held.pressure_atm if held is not None else state.pressure_atm if state is not None else math.nan
+        xlabel, label, label_width = f"{gas.name} partial pressure (atm)", lambda t: f"{t:g}", 7
+        now_text = f"{'held' if held is not None else 'now'} {now:.3g} atm"
     else:
         now = settings.ingredient(mixture).conc
         xlabel, label, label_width = vary, chem.format_molar, 8
         now_text = f"now {chem.format_molar(now)}"
+    if settings.show == "SI":
+        return _sweep_saturation(curve, request, xlabel=xlabel, xlim=(lo, hi),
+                                 xticks=_x_ticks(request, lo, hi, label_width), xtick_label=label,
+                                 mark=Mark(now, now_text))
     notes = [f"pH {curve.pH[0]:.3f} at {settings.from_text.strip()}, {curve.pH[-1]:.3f} at "
              f"{settings.to_text.strip()}", *_unconverged(curve.converged)]
     legend = _notes(_series_line(request, f"pH as {vary} varies"), notes, request)
@@ -482,6 +530,28 @@ def build_sweep(result: chem.Equilibrium, request: PlotRequest, settings: SweepS
     return draw_xy(x, curve.pH, request, xlabel=xlabel, ylabel="pH", xlim=(lo, hi),
                    xticks=_x_ticks(request, lo, hi, label_width), xtick_label=label, ylim=ylim, yticks=yticks,
                    legend=legend, marks=[Mark(now, now_text)])
+
+
+def _sweep_saturation(curve, request: PlotRequest, *, xlabel: str, xlim: tuple[float, float],
+                      xticks: Sequence[float], xtick_label: Callable[[float], str], mark: Mark) -> Drawing:
+    """The saturation index of every candidate solid along a sweep, SI = 0 drawn as a line."""
+    from tui.widgets.line_plot import draw_lines, index_axis   # noqa: PLC0415 - imports this module
+
+    if not curve.solids:
+        return Drawing("No solid can form from this mixture's systems: no saturation index to show.\n"
+                       "Press v and show the pH instead.", note=True)
+    series = [(name, curve.saturation[:, k]) for k, name in enumerate(curve.solids)]
+    ylim, yticks = index_axis([v for _, v in series], _y_most(request.height - 4), SI_SPAN)
+    shown = [(name, v) for name, v in series if np.nanmax(v) > ylim[0]]
+    notes = ["SI = log(IAP/Ksp); above 0 supersaturated"]
+    if len(shown) < len(series):
+        hidden = len(series) - len(shown)
+        notes.append(f"{hidden} solid{'s' * (hidden != 1)} below SI {ylim[0]:g} not drawn")
+    notes += _unconverged(curve.converged)
+    return draw_lines(np.asarray(curve.x), shown, request, xlabel=_say(xlabel, request), xlim=xlim, xticks=xticks,
+                      xtick_label=xtick_label, ylabel="SI", ylim=ylim, yticks=yticks,
+                      marks=[Mark(mark.x, _say(mark.label, request))] if math.isfinite(mark.x) else [],
+                      hlines=(0.0,), notes=notes)
 
 
 def build_dilution(result: chem.Equilibrium, request: PlotRequest) -> Drawing:
@@ -509,7 +579,7 @@ def _guarded(build: Callable[[chem.Equilibrium, PlotRequest], Drawing]) -> Calla
         except chem.ChemError as exc:
             text = "\n".join(textwrap.wrap(str(exc), request.width) + ["Press v to change the curve's settings."])
             drawing = Drawing(text, note=True)
-        except curves.Cancelled:
+        except chem.Cancelled:
             drawing = Drawing("cancelled", note=True)
         return _ascii_drawing(drawing) if request.style.ascii else drawing
 
@@ -519,6 +589,8 @@ def _guarded(build: Callable[[chem.Equilibrium, PlotRequest], Drawing]) -> Calla
 def titration_kind(settings: TitrationSettings | None = None) -> PlotKind:
     """pH vs titrant added (None: :func:`default_titration` of the mixture on display)."""
     title = "titration" if settings is None else f"titration with {settings.titrant_name.strip()}"
+    if settings is not None and settings.track.strip():
+        title += f" · {settings.level_name}"
     return PlotKind("titration", title, _guarded(lambda r, q: build_titration(r, q, settings)))
 
 
@@ -529,7 +601,8 @@ def capacity_kind() -> PlotKind:
 
 def sweep_kind(settings: SweepSettings | None = None) -> PlotKind:
     """pH vs one ingredient's amount or the temperature (None: :func:`default_sweep`)."""
-    title = "pH sweep" if settings is None else f"pH vs {settings.vary.strip()}"
+    what = "SI" if settings is not None and settings.show == "SI" else "pH"
+    title = "pH sweep" if settings is None else f"{what} vs {settings.vary.strip()}"
     return PlotKind("sweep", title, _guarded(lambda r, q: build_sweep(r, q, settings)))
 
 

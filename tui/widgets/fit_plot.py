@@ -3,7 +3,7 @@
 A :class:`~tui.widgets.plot_kinds.PlotKind` with the id "titration": the app shows it in
 place of the plain titration plot when a measured titration is loaded (``d``/``f``) or the
 uncertainty is shown (``i``). The model curve comes from :func:`chem.titration`, the band
-from :func:`chem.uncertainty.curve_band`; this module only draws.
+from :func:`chem.curve_band`; this module only draws.
 
 API:
     ``Overlay(settings, data=None, offset=0.0, label="", band=False)`` what to draw over the curve.
@@ -17,7 +17,6 @@ from dataclasses import dataclass
 import numpy as np
 
 import chem
-from chem.fit import TitrationData
 from tui.widgets.curve_kinds import (_BOX_TO_ASCII, Mark, TitrationSettings, _guarded, _notes, _say, _series_line,
                                      _still_wanted, _unconverged, _x_ticks, _y_most, default_titration,
                                      figure_text, grid_points, ph_axis, simplify, MAX_TITRATION_POINTS)
@@ -33,7 +32,7 @@ class Overlay:
 
     settings: TitrationSettings | None
     """The titration (None: the default for the mixture on display)."""
-    data: TitrationData | None = None
+    data: "chem.TitrationData | None" = None
     """Measured points, drawn as they were read (minus ``offset``)."""
     offset: float = 0.0
     """A fitted electrode offset, taken off the measured pH so points and model share a scale."""
@@ -62,9 +61,7 @@ def build_overlay(result: chem.Equilibrium, request: PlotRequest, overlay: Overl
     ys = [curve.pH]
     lo = hi = None
     if overlay.band:
-        from chem.uncertainty import curve_band
-
-        lo, hi = curve_band(curve).pH_limits(curve.pH)
+        lo, hi = chem.curve_band(curve).pH_limits(curve.pH)
         ys += [lo, hi]
     px = py = None
     if data is not None:

@@ -28,7 +28,7 @@ from textual.scroll_view import ScrollView
 from textual.strip import Strip
 
 import chem
-from chem.units import format_pressure, pressure_ppm
+from chem import format_pressure, pressure_ppm
 from tui.formula import shown_name, shown_unit
 from tui.text import printable
 from tui.widgets.readout import precipitation_label, signed

@@ -7,7 +7,8 @@ worker thread: building plotext text is pure Python and costs tens of ms, so it
 must stay off the UI thread. New kinds (titration, buffer capacity, ...) are
 added by appending to :data:`PLOT_KINDS`.
 
-All curve data come from :mod:`chem.diagrams`; this module only draws them.
+All curve data come from chem (:func:`chem.distribution`, :func:`chem.log_concentrations`); this
+module only draws them.
 """
 
 from __future__ import annotations
@@ -21,7 +22,6 @@ from typing import Callable, Mapping, Sequence
 import numpy as np
 
 import chem
-from chem import diagrams
 
 RGB = tuple[int, int, int]
 
@@ -297,8 +297,8 @@ def _selected_systems(result: chem.Equilibrium, request: PlotRequest) -> tuple[s
 
 def build_distribution(result: chem.Equilibrium, request: PlotRequest) -> Drawing:
     """Fraction of each species of each (or the selected) system vs pH."""
-    ph = diagrams.default_grid(grid_points(request.width))
-    diagram = diagrams.distribution(result.mixture, ph, ionic_strength=result.ionic_strength,
+    ph = chem.default_grid(grid_points(request.width))
+    diagram = chem.distribution(result.mixture, ph, ionic_strength=result.ionic_strength,
                                     systems=_selected_systems(result, request))
     if not diagram.series:
         return Drawing("No acid–base system in the flask: nothing to distribute.\n"
@@ -309,13 +309,18 @@ def build_distribution(result: chem.Equilibrium, request: PlotRequest) -> Drawin
 
 
 def build_log_concentration(result: chem.Equilibrium, request: PlotRequest) -> Drawing:
-    """log10 of each species' concentration vs pH, with H+ and OH-."""
-    ph = diagrams.default_grid(grid_points(request.width))
-    diagram = diagrams.log_concentrations(result.mixture, ph, ionic_strength=result.ionic_strength)
+    """log10 of each species' concentration vs pH, with H+ and OH- and the complexes.
+
+    With one system selected, its complexes (those holding it) are drawn with its own species.
+    """
+    ph = chem.default_grid(grid_points(request.width))
+    diagram = chem.log_concentrations(result.mixture, ph, ionic_strength=result.ionic_strength)
     keep = _selected_systems(result, request)
+    holding = {s.name for s in result.species if s.holds and keep and any(name in keep for name, _ in s.holds)}
     curves = [(name, values) for system, names in diagram.systems.items()
-              if keep is None or system == "water" or system in keep
-              for name, values in ((n, diagram.series[n]) for n in names)]
+              if keep is None or system == "water" or system in keep or system == "complex"
+              for name, values in ((n, diagram.series[n]) for n in names)
+              if system != "complex" or keep is None or name in holding]
     low = float(min(v.min() for _, v in curves))
     high = float(max(v.max() for _, v in curves))
     step = 2.0 if high - low <= 16 else 4.0

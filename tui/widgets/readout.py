@@ -21,7 +21,7 @@ from textual.strip import Strip
 from textual.widget import Widget
 
 import chem
-from chem.units import format_pressure, pressure_ppm
+from chem import format_pressure, pressure_ppm
 from tui.formula import shown_name, shown_unit
 from tui.text import printable
 
