@@ -414,9 +414,90 @@ def _iterate(inp: Inputs, idx: np.ndarray, u: np.ndarray, ionic: np.ndarray, act
     return u, ionic, active, lam_e, lam_s, converged, its
 
 
+#: A free activity above this (mol/L) pinned by the equalities alone has no solution the model can
+#: represent (no aqueous solution holds much more than 30 mol/L of anything; see notices.check_possible).
+PINNED_ACTIVITY_MAX = 30.0
+_PINNED: dict = {}
+
+
+def _pinned(eq_rows: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Components whose ln activity the equalities fix by themselves: (columns, W) with u[cols] = rhs @ W."""
+    key = (eq_rows.shape, eq_rows.tobytes())
+    hit = _PINNED.get(key)
+    if hit is None:
+        nc = eq_rows.shape[1]
+        cols, ws = [], []
+        for j in range(1, nc):              # column 0 (H+) is pinned only by a held pH, always a real value
+            e = np.zeros(nc)
+            e[j] = 1.0
+            w, *_ = np.linalg.lstsq(eq_rows.T, e, rcond=None)
+            if np.allclose(eq_rows.T @ w, e, atol=1e-10):
+                cols.append(j)
+                ws.append(w)
+        hit = (np.array(cols, dtype=int), np.array(ws).T if ws else np.zeros((eq_rows.shape[0], 0)))
+        if len(_PINNED) > 64:
+            _PINNED.clear()
+        _PINNED[key] = hit
+    return hit
+
+
+def beyond_solution(inp: Inputs) -> np.ndarray:
+    """(P,) bool: points where the equalities alone pin a free activity above :data:`PINNED_ACTIVITY_MAX`.
+
+    A solid held in excess at a held pH fixes its metal's free activity
+    (tenorite at pH 2: about 4000 mol/L of Cu2+); no amount of iterating
+    finds a solution there, so such points are reported unconverged at once.
+    """
+    p = inp.points
+    if not inp.eq_rows.shape[0]:
+        return np.zeros(p, dtype=bool)
+    cols, w = _pinned(inp.eq_rows)
+    if not cols.size:
+        return np.zeros(p, dtype=bool)
+    with np.errstate(invalid="ignore"):
+        return np.any(inp.eq_rhs @ w > math.log(PINNED_ACTIVITY_MAX), axis=1)
+
+
 def solve(inp: Inputs, u0: np.ndarray, i0: np.ndarray, *, max_iter: int = 200,
           active0: np.ndarray | None = None) -> Result:
-    """Solve every point of ``inp`` from the starting values ``u0`` (P, nc) and ``i0`` (P,)."""
+    """Solve every point of ``inp`` from the starting values ``u0`` (P, nc) and ``i0`` (P,).
+
+    Points :func:`beyond_solution` flags are not iterated: they come back
+    unconverged with NaN concentrations.
+    """
+    beyond = beyond_solution(inp)
+    if beyond.any():
+        return _solve_within(inp, u0, i0, max_iter, active0, beyond)
+    return _solve(inp, u0, i0, max_iter=max_iter, active0=active0)
+
+
+def _solve_within(inp: Inputs, u0, i0, max_iter, active0, beyond) -> Result:
+    p = inp.points
+    nq, ne, ns = inp.sol_a.shape[0], inp.eq_rows.shape[0], inp.nu.shape[0]
+    u = np.array(u0, dtype=float, copy=True)
+    ionic = np.array(i0, dtype=float, copy=True)
+    conc = np.full((p, ns), np.nan)
+    lng = np.full((p, ns), np.nan)
+    amounts = np.zeros((p, nq))
+    eq_mult = np.full((p, ne), np.nan)
+    conv = np.zeros(p, dtype=bool)
+    resid = np.full(p, np.inf)
+    its = 0
+    ok = np.nonzero(~beyond)[0]
+    if ok.size:
+        sub = _solve(_subset(inp, ok), u[ok], ionic[ok], max_iter=max_iter,
+                     active0=None if active0 is None else np.asarray(active0)[ok])
+        u[ok], ionic[ok], conc[ok], lng[ok] = sub.u, sub.ionic, sub.conc, sub.lng
+        amounts[ok], eq_mult[ok], conv[ok], resid[ok] = sub.amounts, sub.eq_mult, sub.converged, sub.residual
+        its = sub.iterations
+    ionic[beyond] = np.nan
+    u[beyond] = np.nan
+    return Result(u=u, ionic=ionic, lng=lng, conc=conc, amounts=amounts, eq_mult=eq_mult, converged=conv,
+                  residual=resid, iterations=its)
+
+
+def _solve(inp: Inputs, u0: np.ndarray, i0: np.ndarray, *, max_iter: int = 200,
+           active0: np.ndarray | None = None) -> Result:
     p = inp.points
     idx = np.arange(p)
     u = np.array(u0, dtype=float, copy=True)
@@ -467,6 +548,7 @@ def _nested(inp: Inputs, idx, u, ionic, active, budget: int):
     lam_s = np.zeros((n, inp.sol_a.shape[0]))
     used = 0
     ionic = np.minimum(ionic, cap)
+    dead = np.zeros(n, dtype=bool)
     for _ in range(80):
         u, _, active, lam_e, lam_s, inner_ok, its = _iterate(inp, idx, u, ionic.copy(), active,
                                                              freeze_ionic=True, max_iter=200)
@@ -476,7 +558,12 @@ def _nested(inp: Inputs, idx, u, ionic, active, budget: int):
         new_i = ionic_of(inp, idx, c, lam_e)
         r = new_i - ionic
         conv = inner_ok & (np.abs(r) <= 1e-11 * np.maximum(new_i, 1e-300) + 1e-18)
-        if conv.all() or used >= budget:
+        # a point still asking for more ionic strength at a ceiling that cannot grow has no
+        # solution below it (R > 0 all the way up): it is given up at once, not iterated to
+        # the budget (a solid held in excess where it would dissolve to thousands of mol/L)
+        growable = (inp.counter_row is not None) & (cap < 1e3)
+        dead |= inner_ok & ~conv & (r > 0) & (ionic >= cap * (1 - 1e-12)) & ~growable
+        if (conv | dead).all() or used >= budget:
             break
         up, down = r > 0, r < 0
         r_hi = np.where(up & (last > 0), 0.5 * r_hi, r_hi)     # Illinois modification

@@ -36,6 +36,9 @@ class Diagram:
     ionic_strength: float
     temperature_c: float
     converged: np.ndarray | None = None
+    no_solution: np.ndarray | None = None
+    """Points with no solution the model can represent (their series are NaN; they count as unconverged):
+    the held pH, solid or gas would pin a free activity above 30 mol/L."""
 
     def __post_init__(self) -> None:
         self.ph.setflags(write=False)
@@ -206,7 +209,9 @@ def system_distribution(mixture: Mixture, system: str, ph=None) -> Diagram:
     """Every species and solid holding ``system``, as its share of the system's total, vs pH.
 
     The pH is imposed at each point (a pH-stat) and the mixture's totals
-    stay as given; solids form where the mixture allows them.
+    stay as given; solids form where the mixture allows them. The shares are
+    of the amount present at each point (a held gas changes it; the shares
+    of the dissolved forms and solids then still add up to 1).
     """
     ph = np.asarray(default_grid() if ph is None else ph, dtype=float)
     prob, inp, res = _held(mixture, ph)
@@ -220,6 +225,11 @@ def system_distribution(mixture: Mixture, system: str, ph=None) -> Diagram:
     total = prob.totals[col]
     if prob.zero[col]:
         raise ModelError(f"system '{key}' has a total of 0 in this mixture")
+    # the system's amount at each point, dissolved and solid: the mixture's total in a closed
+    # flask, whatever a held gas brings in or takes out otherwise
+    present = res.conc @ st.nu[:, col] + (res.amounts @ st.sol_a[:, col] if st.solids else 0.0)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        total = np.where(present > 0, present, total)
     series: dict[str, np.ndarray] = {}
     held = np.nonzero(st.nu[:, col])[0]
     for r in held:
@@ -229,7 +239,7 @@ def system_distribution(mixture: Mixture, system: str, ph=None) -> Diagram:
         if n:
             series[so.name] = n * res.amounts[:, q] / total
     return Diagram(ph.copy(), series, {key: tuple(series)}, float("nan"), mixture.temperature_c,
-                   np.array(res.converged))
+                   np.array(res.converged), K.beyond_solution(inp))
 
 
 def solubility(mixture: Mixture, solid: str, ph=None) -> Diagram:
@@ -252,7 +262,7 @@ def solubility(mixture: Mixture, solid: str, ph=None) -> Diagram:
         if st.sol_a[q, col]:
             series[sys_.name] = res.conc @ st.nu[:, col]
     return Diagram(ph.copy(), series, {solid: tuple(series)}, float("nan"), mixture.temperature_c,
-                   np.array(res.converged))
+                   np.array(res.converged), K.beyond_solution(inp))
 
 
 def saturation(mixture: Mixture, ph=None) -> Diagram:
@@ -263,4 +273,4 @@ def saturation(mixture: Mixture, ph=None) -> Diagram:
     si = (res.u @ st.sol_a.T - inp.sol_b) / LN10
     series = {so.name: si[:, q] for q, so in enumerate(st.solids)}
     return Diagram(ph.copy(), series, {"solids": tuple(series)}, float("nan"), mixture.temperature_c,
-                   np.array(res.converged))
+                   np.array(res.converged), K.beyond_solution(inp))

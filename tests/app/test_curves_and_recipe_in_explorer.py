@@ -75,3 +75,30 @@ async def test_markup_like_text_typed_as_an_amount_is_shown_literally(acetate_bu
         await pilot.press("enter")                     # refused: the mixture is unchanged
         await settle(pilot)
         assert app.mixture == acetate_buffer
+
+
+async def test_keys_typed_ahead_after_picking_a_reagent_land_in_its_amount(acetate_buffer, settle):
+    # Over SSH a burst of keys arrives at once. Posting them all to the app before any is handled
+    # recreates that (Pilot.press would wait for each): the reagent picked must be the one typed,
+    # and the amount typed right after enter must land in its amount field, not in the filter.
+    from textual import events
+
+    from tui.screens.finder import IngredientFinder
+
+    def key(ch: str) -> events.Key:
+        name = {" ": "space", "\r": "enter"}.get(ch, ch)
+        return events.Key(name, ch)
+
+    app = ExplorerApp(acetate_buffer)
+    async with app.run_test(size=(100, 30)) as pilot:
+        await settle(pilot)
+        await pilot.press("n")
+        await wait_until(pilot, lambda: isinstance(app.screen, IngredientFinder))
+        for ch in "potassium chloride\r7 mM\r":
+            app.post_message(key(ch))
+        await settle(pilot)
+        await wait_until(pilot, lambda: app.screen is app.screen_stack[0])
+        await settle(pilot)
+        added = [i for i in app.mixture.ingredients if i.reagent.name == "potassium chloride"]
+        assert len(added) == 1 and added[0].conc == pytest.approx(0.007)
+        assert len(app.mixture.ingredients) == len(acetate_buffer.ingredients) + 1

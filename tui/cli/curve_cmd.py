@@ -415,7 +415,11 @@ def _held_diagram(args, mixture, grid, eq) -> _Result:
     series = {"pH": d.ph, **d.series}
     notes = [note, "pH imposed at each point (as a pH-stat holds it); the mixture's totals as given"]
     marks = [eq.pH] if grid[0] <= eq.pH <= grid[-1] else []
-    bad = 0 if d.converged is None else int((~d.converged).sum())
+    none = 0 if d.no_solution is None else int(d.no_solution.sum())
+    bad = 0 if d.converged is None else int((~d.converged).sum()) - none
+    if none:
+        notes.append(f"{none} point(s) have no solution and are left empty: there a free ion would pass "
+                     "30 mol/L (no aqueous solution holds that)")
     return _Result(args.kind, "pH", d.ph, series, names, ylabel, "pH", marks=marks, notes=notes, not_converged=bad)
 
 
@@ -560,6 +564,10 @@ def run(args) -> int:
     if res.not_converged:
         print(f"protomix: warning: {res.not_converged} point(s) did not converge; their numbers are unreliable",
               file=sys.stderr)
+    if args.json or args.csv:
+        for note in res.notes:
+            if "have no solution" in note:
+                print(f"protomix: note: {note}", file=sys.stderr)
     if args.json:
         sys.stdout.write(safe_json(json.dumps(to_json(res), ensure_ascii=False)) + "\n")
     elif args.csv:

@@ -71,7 +71,7 @@ class IngredientFinder(PickerScreen["chem.Ingredient | None"]):
             Content.assemble("amount of ", (printable(self.reagent.name), "bold"), ": "))
         amount = self.query_one("#finder-amount", AmountInput)
         amount.use_molar_mass(self.reagent.molar_mass)
-        amount.focus()
+        self.set_focus(amount)      # at once: keys typed ahead (a burst over SSH) land in the amount
 
     @on(Input.Changed, "#finder-amount")
     def _check_amount(self, event: Input.Changed) -> None:

@@ -5,7 +5,7 @@ from __future__ import annotations
 from functools import partial
 from typing import Generic, TypeVar
 
-from textual import on
+from textual import events, on
 from textual.app import ComposeResult
 from textual.binding import Binding
 from textual.containers import Vertical
@@ -16,6 +16,40 @@ from tui.screens.base import Dialog
 
 
 T = TypeVar("T")
+
+
+class QueryInput(Input):
+    """The filter entry. Enter picks at once, and keys already on their way here go where the focus went.
+
+    Textual routes each key to the widget focused when the app reads it, so
+    in a burst (typing ahead over SSH) the keys after enter are queued for
+    the filter before the pick moves the focus. Picking inside the entry's
+    own enter handler moves the focus first; the keys still queued here are
+    then handed on to the newly focused widget, in order.
+    """
+
+    async def action_submit(self) -> None:
+        screen = self.screen
+        if isinstance(screen, PickerScreen):
+            screen.pick_highlighted()
+        else:                                   # pragma: no cover - the entry lives in a picker
+            await super().action_submit()
+
+    async def _on_key(self, event: events.Key) -> None:
+        target = self.screen.focused if self.is_attached else None
+        if target is not None and target is not self:
+            event.stop()
+            event.prevent_default()
+            target.post_message(events.Key(event.key, event.character))
+            return
+        if event.key == "enter":
+            # Taken here, not by the binding: a binding acts only once the key has bubbled up to
+            # the app, after this entry has already typed the keys that followed it.
+            event.stop()
+            event.prevent_default()
+            await self.action_submit()
+            return
+        await super()._on_key(event)
 
 #: Wait before refilling the list after a keystroke (s): one frame, so the keystroke shows first.
 REFILL_DELAY = 1 / 60
@@ -44,7 +78,7 @@ class PickerScreen(Dialog[T], Generic[T]):
     def compose(self) -> ComposeResult:
         with Vertical(classes="dialog picker"):
             yield Label(self.heading, classes="dialog-heading")
-            yield Input(placeholder=self.placeholder, id="picker-query")
+            yield QueryInput(placeholder=self.placeholder, id="picker-query")
             yield OptionList(id="picker-list")
             yield Label("", id="picker-count", classes="dialog-hint")
             yield from self.compose_extra()
@@ -92,8 +126,10 @@ class PickerScreen(Dialog[T], Generic[T]):
         if query == self._query:
             self.refill(query)
 
-    @on(Input.Submitted, "#picker-query")
-    def _pick_highlighted(self) -> None:
+    def pick_highlighted(self) -> None:
+        """Pick the highlighted option (enter in the filter)."""
+        # what the entry holds now: in a burst its Changed messages have not reached us yet
+        self._query = self.query_one("#picker-query", Input).value
         if self._shown != self._query:                 # enter came before the list caught up
             self.refill(self._query)
         listing = self.query_one("#picker-list", OptionList)

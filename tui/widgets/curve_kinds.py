@@ -415,9 +415,14 @@ def draw_xy(x: np.ndarray, y: np.ndarray, request: PlotRequest, *, xlabel: str, 
     return Drawing(out, legend)
 
 
-def _unconverged(flags: np.ndarray) -> list[str]:
-    bad = int((~flags).sum())
-    return [f"{bad} point{'s' * (bad != 1)} did not converge (unreliable)"] if bad else []
+def _unconverged(flags: np.ndarray, no_solution: np.ndarray | None = None) -> list[str]:
+    none = 0 if no_solution is None else int(no_solution.sum())
+    bad = int((~flags).sum()) - none
+    notes = [f"{bad} point{'s' * (bad != 1)} did not converge (unreliable)"] if bad else []
+    if none:
+        notes.append(f"{none} point{'s' * (none != 1)} left out: no solution there "
+                     "(a free ion would pass 30 mol/L)")
+    return notes
 
 
 def _x_ticks(request: PlotRequest, lo: float, hi: float, label_width: int) -> list[float]:

@@ -146,7 +146,7 @@ def build_forms(result: chem.Equilibrium, request: PlotRequest, settings: HeldSe
     notes = [f"every form of {system} as a share of its total", "pH held at each point"]
     if minor:
         notes.append(f"{minor} form{'s' * (minor != 1)} under {MIN_SHARE:.0%} not drawn")
-    notes += _unconverged(diagram.converged)
+    notes += _unconverged(diagram.converged, diagram.no_solution)
     lo, hi = float(ph[0]), float(ph[-1])
     return draw_lines(ph, curves, request, xlabel="pH", xlim=(lo, hi), xticks=_ph_axis(request, lo, hi),
                       xtick_label=lambda t: f"{t:g}", ylabel="share of total", ylim=(0.0, 1.0),
@@ -165,7 +165,7 @@ def build_solubility(result: chem.Equilibrium, request: PlotRequest, settings: H
         curves = [(f"{name}, dissolved", np.log10(values)) for name, values in diagram.series.items()]
     ylim, yticks = log_axis([v for _, v in curves], _y_most(request), LOG_DECADES)
     lo, hi = float(ph[0]), float(ph[-1])
-    notes = [f"with an excess of {solid}", "pH held at each point", *_unconverged(diagram.converged)]
+    notes = [f"with an excess of {solid}", "pH held at each point", *_unconverged(diagram.converged, diagram.no_solution)]
     return draw_lines(ph, curves, request, xlabel="pH", xlim=(lo, hi), xticks=_ph_axis(request, lo, hi),
                       xtick_label=lambda t: f"{t:g}", ylabel="log C (M)", ylim=ylim, yticks=yticks,
                       marks=_ph_marks(result), notes=notes)
@@ -187,7 +187,7 @@ def build_saturation(result: chem.Equilibrium, request: PlotRequest, settings: H
         notes.append(f"at pH {result.pH:.2f}: {', '.join(above)} above 0")
     if below:
         notes.append(f"{below} solid{'s' * (below != 1)} below SI {ylim[0]:g} not drawn")
-    notes += _unconverged(diagram.converged)
+    notes += _unconverged(diagram.converged, diagram.no_solution)
     lo, hi = float(ph[0]), float(ph[-1])
     return draw_lines(ph, curves, request, xlabel="pH", xlim=(lo, hi), xticks=_ph_axis(request, lo, hi),
                       xtick_label=lambda t: f"{t:g}", ylabel="SI", ylim=ylim, yticks=yticks,
