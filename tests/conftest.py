@@ -16,6 +16,15 @@ def _private_data_dir(tmp_path_factory, monkeypatch):
     monkeypatch.setenv("PROTOMIX_DATA_DIR", str(tmp_path_factory.mktemp("protomix-data")))
 
 
+@pytest.fixture(autouse=True)
+def _utf8_locale(monkeypatch):
+    """A UTF-8 terminal locale unless a test sets another: names and plots then look the same on
+    every machine (a fresh one may have no LANG at all, which the explorer reads as ASCII only)."""
+    monkeypatch.delenv("LC_ALL", raising=False)
+    monkeypatch.delenv("LC_CTYPE", raising=False)
+    monkeypatch.setenv("LANG", "C.UTF-8")
+
+
 @pytest.fixture(scope="session")
 def lib():
     from chem import load_library

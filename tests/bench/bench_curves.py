@@ -20,7 +20,8 @@ import numpy as np
 
 sys.path.insert(0, str(Path(__file__).resolve().parent))
 
-from bench_solve import median_ms, ten_system_mixture  # noqa: E402
+from bench_solve import ten_system_mixture  # noqa: E402
+from timing import median_ms  # noqa: E402
 
 from chem import load_library, solve  # noqa: E402
 from chem.curves import buffer_capacity, dilution, sweep, titration  # noqa: E402

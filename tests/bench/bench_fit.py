@@ -9,9 +9,7 @@ Targets: a 3-parameter fit of 60 points within 0.5 s; ``--uncertainty`` on the
 
 from __future__ import annotations
 
-import statistics
 import sys
-import time
 from pathlib import Path
 
 import numpy as np
@@ -27,16 +25,7 @@ from chem import Ingredient, Mixture, load_library, solve  # noqa: E402
 from chem.fit import TitrationData, fit_titration  # noqa: E402
 from chem.model import AcidBaseSystem, Reagent  # noqa: E402
 from chem.uncertainty import propagate  # noqa: E402
-
-
-def median_ms(fn, repeat: int) -> float:
-    fn()
-    times = []
-    for _ in range(repeat):
-        t0 = time.perf_counter()
-        fn()
-        times.append(time.perf_counter() - t0)
-    return statistics.median(times) * 1e3
+from timing import median_ms  # noqa: E402
 
 
 def main() -> None:

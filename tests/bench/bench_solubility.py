@@ -14,7 +14,6 @@ says whether every point converged. Then the explorer's solubility, saturation a
 
 from __future__ import annotations
 
-import statistics
 import sys
 import time
 from pathlib import Path
@@ -25,6 +24,7 @@ ROOT = Path(__file__).resolve().parents[2]
 sys.path.insert(0, str(ROOT))
 
 import chem  # noqa: E402
+from timing import median_ms  # noqa: E402
 
 #: (preset, solid) of each case.
 CASES = (
@@ -42,13 +42,7 @@ MOLAR = 1.0
 
 
 def median_s(fn, repeat: int) -> float:
-    fn()
-    times = []
-    for _ in range(repeat):
-        t0 = time.perf_counter()
-        fn()
-        times.append(time.perf_counter() - t0)
-    return statistics.median(times)
+    return median_ms(fn, repeat) / 1e3
 
 
 def main() -> None:

@@ -12,13 +12,12 @@ systems) while doing more (activity, temperature, ionic strength).
 from __future__ import annotations
 
 import math
-import statistics
-import time
 
 from scipy.optimize import brentq
 
 from chem import Ingredient, Mixture, load_library, solve, water
 from chem.diagrams import distribution
+from timing import median_ms
 
 TEN = [("acetic acid", 0.010), ("sodium dihydrogen phosphate", 0.020), ("disodium hydrogen phosphate", 0.015),
        ("citric acid", 0.005), ("tris base", 0.020), ("hepes free acid", 0.010), ("sodium bicarbonate", 0.004),
@@ -53,16 +52,6 @@ def scripted_ideal_ph(mix: Mixture) -> float:
         return total
 
     return brentq(balance, -2.0, 16.0, xtol=1e-12)
-
-
-def median_ms(fn, repeat: int) -> float:
-    fn()
-    times = []
-    for _ in range(repeat):
-        t0 = time.perf_counter()
-        fn()
-        times.append(time.perf_counter() - t0)
-    return statistics.median(times) * 1e3
 
 
 def main() -> None:

@@ -24,7 +24,7 @@ from textual.containers import Horizontal, Vertical
 from textual.widgets import Input, Label
 
 import chem
-from tui.screens.base import Dialog
+from tui.screens.base import CheckedForm
 from tui.screens.recipe_form import Cycler, first_problem, named, show_text
 from tui.widgets.curve_kinds import read_ph
 from tui.widgets.speciation_kinds import HeldSettings
@@ -37,7 +37,7 @@ HEADINGS = {
 }
 
 
-class HeldSetup(Dialog["HeldSettings | None"]):
+class HeldSetup(CheckedForm["HeldSettings | None"]):
     """Asks for the system or solid of the plot on display and the pH range; dismisses with the settings."""
 
     DEFAULT_CSS = """
@@ -48,6 +48,8 @@ class HeldSetup(Dialog["HeldSettings | None"]):
         height: auto;
     }
     """
+
+    field_prefix = "held"
 
     BINDINGS = [Binding("escape", "cancel", "Close", tooltip="Close without changing the plot"),
                 Binding("enter", "accept", "Draw", show=False)]
@@ -152,26 +154,3 @@ class HeldSetup(Dialog["HeldSettings | None"]):
             self.system = event.value
         elif event.cycler.id == "held-solid":
             self.solid = event.value
-
-    @on(Input.Changed)
-    def _changed(self) -> None:
-        self._check()
-
-    def on_descendant_focus(self) -> None:
-        self._check()
-
-    @on(Input.Submitted)
-    def _submitted(self, event: Input.Submitted) -> None:
-        event.stop()
-        self.action_accept()
-
-    def action_accept(self) -> None:
-        problems = self._check()
-        if problems:
-            self.query_one(f"#held-{next(iter(problems))}", Input).focus()
-            self.app.bell()
-            return
-        self.dismiss(self.current())
-
-    def action_cancel(self) -> None:
-        self.dismiss(None)

@@ -29,14 +29,14 @@ from textual.containers import Horizontal, Vertical
 from textual.widgets import Input, Label
 
 import chem
-from tui.screens.base import Dialog
+from tui.screens.base import CheckedForm
 from tui.screens.recipe_form import Cycler, first_problem, named, show_text
 from tui.widgets.curve_kinds import MAX_SWEEP_POINTS, SweepSettings, default_sweep
 
 TEMPERATURE = "temperature"
 
 
-class SweepSetup(Dialog["SweepSettings | None"]):
+class SweepSetup(CheckedForm["SweepSettings | None"]):
     """Asks what varies and over which range; dismisses with the :class:`SweepSettings`."""
 
     DEFAULT_CSS = """
@@ -47,6 +47,8 @@ class SweepSetup(Dialog["SweepSettings | None"]):
         height: auto;
     }
     """
+
+    field_prefix = "sweep"
 
     BINDINGS = [Binding("escape", "cancel", "Close", tooltip="Close without changing the sweep"),
                 Binding("enter", "accept", "Draw", show=False)]
@@ -177,26 +179,3 @@ class SweepSetup(Dialog["SweepSettings | None"]):
             self.query_one("#sweep-to", Input).value = default.to_text
         self._placeholders()
         self._check()
-
-    @on(Input.Changed)
-    def _changed(self) -> None:
-        self._check()
-
-    def on_descendant_focus(self) -> None:
-        self._check()                                   # show the problem of the field now being typed in
-
-    @on(Input.Submitted)
-    def _submitted(self, event: Input.Submitted) -> None:
-        event.stop()
-        self.action_accept()
-
-    def action_accept(self) -> None:
-        problems = self._check()
-        if problems:
-            self.query_one(f"#sweep-{next(iter(problems))}", Input).focus()
-            self.app.bell()
-            return
-        self.dismiss(self.current())
-
-    def action_cancel(self) -> None:
-        self.dismiss(None)

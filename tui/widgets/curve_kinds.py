@@ -41,7 +41,7 @@ from textual.worker import NoActiveWorker, get_current_worker
 import chem
 from chem import PH_MAX, PH_MIN, check_ph, neutral_ph, ph_grid
 from tui.cli.curve_cmd import p_label
-from tui.widgets.plot_kinds import (_BOX_TO_ASCII, RGB, Drawing, LegendLine, PlotKind, PlotRequest, draw,
+from tui.widgets.plot_kinds import (_BOX_TO_ASCII, RGB, Drawing, LegendLine, PlotKind, PlotRequest, _step, draw,
                                     figure_text, grid_points, simplify)
 from tui.widgets.plot_kinds import draw_kind  # noqa: F401  (re-exported: one entry point for every kind)
 
@@ -249,15 +249,6 @@ def default_sweep(mixture: chem.Mixture, vary: str | None = None) -> SweepSettin
 # --------------------------------------------------------------------------
 # axes
 # --------------------------------------------------------------------------
-
-def _step(span: float, most: int) -> float:
-    """A 1-2-2.5-5 step giving at most ``most`` intervals over ``span``."""
-    raw = span / max(most, 1)
-    mag = 10.0 ** math.floor(math.log10(raw))
-    for m in (1.0, 2.0, 2.5, 5.0, 10.0):
-        if span / (m * mag) <= most + 1e-9:
-            return m * mag
-    return 10.0 * mag
 
 
 def _multiples(lo: float, hi: float, step: float) -> list[float]:

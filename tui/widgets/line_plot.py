@@ -19,8 +19,8 @@ from typing import Callable, Protocol, Sequence
 
 import numpy as np
 
-from tui.widgets.plot_kinds import (_BOX_TO_ASCII, Drawing, LegendLine, PlotRequest, _legend, figure_text,
-                                    simplify, visible_runs)
+from tui.widgets.plot_kinds import (_BOX_TO_ASCII, Drawing, LegendLine, PlotRequest, _legend, _step,
+                                    figure_text, simplify, visible_runs)
 
 
 class Marked(Protocol):
@@ -28,15 +28,6 @@ class Marked(Protocol):
 
     x: float
     label: str
-
-
-def _step(span: float, most: int) -> float:
-    raw = span / max(most, 1)
-    mag = 10.0 ** math.floor(math.log10(raw))
-    for m in (1.0, 2.0, 2.5, 5.0, 10.0):
-        if span / (m * mag) <= most + 1e-9:
-            return m * mag
-    return 10.0 * mag
 
 
 def _whole_ticks(lo: float, hi: float, most: int) -> tuple[tuple[float, float], list[float]]:

@@ -13,6 +13,7 @@ module only draws them.
 
 from __future__ import annotations
 
+import math
 import os
 import re
 from dataclasses import dataclass
@@ -22,6 +23,7 @@ from typing import Callable, Mapping, Sequence
 import numpy as np
 
 import chem
+from tui.formula import shown_name
 
 RGB = tuple[int, int, int]
 
@@ -217,12 +219,23 @@ def figure_text(fig) -> str:
     return "\n".join(lines) + "\n"
 
 
+def _step(span: float, most: int) -> float:
+    """A 1-2-2.5-5 step giving at most ``most`` intervals over ``span``."""
+    raw = span / max(most, 1)
+    mag = 10.0 ** math.floor(math.log10(raw))
+    for m in (1.0, 2.0, 2.5, 5.0, 10.0):
+        if span / (m * mag) <= most + 1e-9:
+            return m * mag
+    return 10.0 * mag
+
+
 def _legend(labels: Sequence[str], style: PlotStyle, width: int, max_rows: int) -> tuple[LegendLine, ...]:
     """Series names with their symbols, wrapped to ``width``, at most ``max_rows`` lines."""
     lines: list[list[tuple[str, RGB | None]]] = [[]]
     used = 0
     for i, label in enumerate(labels):
-        entry = [(style.legend_symbol(i), style.color(i)), (f" {label}", None)]
+        # chemists' names (HPO₄²⁻) where the terminal can draw them, as the species panel shows them
+        entry = [(style.legend_symbol(i), style.color(i)), (f" {shown_name(label, not style.ascii)}", None)]
         size = len(entry[0][0]) + len(entry[1][0])
         last_row = len(lines) == max_rows
         room = width - (len(f"  +{len(labels)} more") if last_row and i < len(labels) - 1 else 0)
@@ -300,6 +313,12 @@ def build_distribution(result: chem.Equilibrium, request: PlotRequest) -> Drawin
     ph = chem.default_grid(grid_points(request.width))
     diagram = chem.distribution(result.mixture, ph, ionic_strength=result.ionic_strength,
                                     systems=_selected_systems(result, request))
+    if not diagram.series and request.system is not None and _selected_systems(result, request):
+        # the selected ingredient's system has no acid–base forms (a metal): draw its forms, its
+        # complexes and solids, as shares of its total (pH held at each point) instead of a note
+        from tui.widgets.speciation_kinds import build_forms
+
+        return build_forms(result, request, None, selected=request.system)
     if not diagram.series:
         return Drawing("No acid–base system in the flask: nothing to distribute.\n"
                        "Add an acid, a base or a buffer salt (n).", note=True)
