@@ -919,6 +919,11 @@ def _metal_salt_for(metal: AcidBaseSystem, lib: Library, cation: str | None) -> 
     raise RecipeError(f"the library has no chloride or nitrate of {metal.name}; give the salt with metal_salt")
 
 
+#: A metal buffer whose pH moves more than this (pH units, first order) for ±1 % on each amount
+#: gets the "pH-not-held" warning.
+UNHELD_PH_SD = 0.1
+
+
 def design_metal_buffer(free: str, system: str | AcidBaseSystem, target_pH: float, *,
                         temperature_c: float = 25.0, total="10 mM", volume="1 L", salts: Iterable = (),
                         metal_salt=None, cation: str | None = None, titrant=None, titrant_conc=None,
@@ -983,8 +988,20 @@ def design_metal_buffer(free: str, system: str | AcidBaseSystem, target_pH: floa
     note = Notice("metal-buffer", f"{salt.name} is solved so that free {species} is {format_molar(target, 4)} at "
                                   f"pH {target_pH:g} and {temperature_c:g} °C; the pH adjustment is made with the "
                                   "metal present.")
-    return replace(recipe, free_species=species, free_target=target, metal_salt=salt,
-                   warnings=recipe.warnings + (note,))
+    # the chelator sets the metal's level, not the pH: its pKa range says nothing here; what matters
+    # is whether anything holds the pH against a weighing error
+    warnings = tuple(w for w in recipe.warnings if w.code != "outside-useful-range") + (note,)
+    out = replace(recipe, free_species=species, free_target=target, metal_salt=salt, warnings=warnings)
+    weighing = out.uncertainty.weighing_sd
+    if weighing > UNHELD_PH_SD:
+        warnings += (Notice("pH-not-held",
+                            f"Little holds the pH of this metal buffer (buffer capacity "
+                            f"{out.buffer_capacity * 1e3:.3g} mM/pH): ±1 % on each amount moves it by about "
+                            f"{min(weighing, 9.9):.2g} pH (first order), and the free {species} with it. Add a pH "
+                            "buffer near the target as a background ingredient (for pH 6.5-8, e.g. --salt "
+                            "\"hepes free acid 20 mM\" or MOPS); the designer then adjusts the pH with it present."),)
+        out = replace(out, warnings=warnings)
+    return out
 
 
 __all__ = ["FORMS", "Recipe", "RecipeError", "RecipeItem", "Shortcut", "Suggestion", "buffer_capacity",

@@ -222,7 +222,7 @@ def propagate(eq: Equilibrium, *, method: str = "first-order", samples: int = DE
     for r in rows:
         lsd = float(np.sqrt(np.sum((dlnc[r] * sd) ** 2))) / LN10
         c = 0.0 if zero[r] else float(conc[r])
-        f = 10.0 ** (Z95 * lsd)
+        f = 10.0 ** min(Z95 * lsd, 300.0)          # a first-order sd of hundreds of decades: no bound
         species.append(SpeciesUncertainty(st.species[r].name, c, lsd, (c / f, c * f)))
     defaults = tuple(c.key for c in contribs if not c.stated and c.pH_sd > 1e-6 and not c.key.startswith("amount:"))
     return Uncertainty("first-order", ph, ph_sd, (ph - Z95 * ph_sd, ph + Z95 * ph_sd), tuple(species),
@@ -372,6 +372,11 @@ def mixture_uncertainty(mixture: Mixture, **kwargs) -> Uncertainty:
 WEIGHING_REL_SD = 0.01
 
 
+#: A recipe pH sd (pH units) beyond which the first-order estimate is not a bound but a sign that
+#: nothing holds the pH (the titration curve bends within one sd; common practice for linearisation).
+FIRST_ORDER_LIMIT = 0.3
+
+
 @dataclass(frozen=True)
 class RecipeUncertainty:
     """How far a recipe's pH could be off: from the constants and from weighing."""
@@ -390,9 +395,16 @@ class RecipeUncertainty:
     def interval_95(self) -> tuple[float, float]:
         return self.pH - Z95 * self.sd, self.pH + Z95 * self.sd
 
+    @property
+    def first_order_valid(self) -> bool:
+        """Whether the linear estimate means anything: beyond :data:`FIRST_ORDER_LIMIT` pH the
+        curve bends within one sd (an unbuffered solution), and the sd only says "not held"."""
+        return self.sd <= FIRST_ORDER_LIMIT
+
     def to_dict(self) -> dict:
         lo, hi = self.interval_95
         return {"method": "first-order", "pH_sd": self.sd, "interval_95": [lo, hi],
+                "first_order_valid": self.first_order_valid,
                 "from_constants_sd": self.constants_sd, "from_weighing_sd": self.weighing_sd,
                 "weighing_rel_sd": self.rel_sd, "defaults_used_for": list(self.defaults),
                 "default_pKa_sd": DEFAULT_PKA_SD, "default_log_K_sd": DEFAULT_LOG_K_SD}

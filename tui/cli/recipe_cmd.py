@@ -163,8 +163,14 @@ def render_recipe(recipe) -> str:
                    f"(−log activity)")
     unc = recipe.uncertainty
     lo, hi = unc.interval_95
-    out.append(f"how sure: pH {recipe.pH:.2f} ± {unc.sd:.3f} (95 %: {lo:.2f} to {hi:.2f}); from the constants "
-               f"± {unc.constants_sd:.3f}, from weighing (±{100 * unc.rel_sd:g} % on each amount) ± {unc.weighing_sd:.3f}")
+    if unc.first_order_valid:
+        out.append(f"how sure: pH {recipe.pH:.2f} ± {unc.sd:.3f} (95 %: {lo:.2f} to {hi:.2f}); from the constants "
+                   f"± {unc.constants_sd:.3f}, from weighing (±{100 * unc.rel_sd:g} % on each amount) "
+                   f"± {unc.weighing_sd:.3f}")
+    else:
+        out.append(f"how sure: not held: ±{100 * unc.rel_sd:g} % on each amount moves this pH by whole units "
+                   f"(first-order sd {unc.sd:.2g}, beyond where a linear estimate holds); from the constants "
+                   f"alone ± {unc.constants_sd:.3f}")
     if unc.defaults:
         out.append("  (no uncertainty stated for " + ", ".join(unc.defaults[:3])
                    + ("; ..." if len(unc.defaults) > 3 else "") + ": a default was used)")
