@@ -97,18 +97,23 @@ def _clip(text: str, limit: int = 40) -> str:
     return text if len(text) <= limit else text[:limit - 1] + "…"
 
 
+def _entry_name(entry: dict, where: str, required, label: str) -> tuple[str, str]:
+    """The name of a custom table once its required keys are there: (name, ``where`` naming it)."""
+    for key in required:
+        if key not in entry:
+            raise PresetError(f"{where}: missing '{key}'")
+    name = _str(entry["name"], label).strip()
+    if not name:
+        raise PresetError(f"{label}: must not be empty")
+    if len(name) > MAX_NAME:
+        raise PresetError(f"{label}: longer than {MAX_NAME} characters")
+    return name, f"{where} ({_clip(name)})"
+
+
 def custom_reagent(entry: dict, where: str, library: Library) -> Reagent:
     """Build the system and reagent defined by one ``[[custom]]`` table."""
     _check_table(entry, _CUSTOM_KEYS, where)
-    for key in sorted(_CUSTOM_REQUIRED):
-        if key not in entry:
-            raise PresetError(f"{where}: missing '{key}'")
-    name = _str(entry["name"], f"{where}.name").strip()
-    if not name:
-        raise PresetError(f"{where}.name: must not be empty")
-    if len(name) > MAX_NAME:
-        raise PresetError(f"{where}.name: longer than {MAX_NAME} characters")
-    where = f"{where} ({_clip(name)})"
+    name, where = _entry_name(entry, where, sorted(_CUSTOM_REQUIRED), f"{where}.name")
     pka = _num_list(entry["pKa"], f"{where}: pKa", allow_empty=True)
     for i, p in enumerate(pka):
         if not -2.0 <= p <= 16.0:
@@ -187,15 +192,7 @@ MAX_NAME = 80
 def _reaction_table(kind: str, entry, where: str, index: dict):
     """One ``[[custom_complex]]``, ``[[custom_solid]]`` or ``[[custom_gas]]`` table, resolved."""
     _check_table(entry, _KIND_KEYS[kind], where)
-    for key in ("name", "reaction", "log_K"):
-        if key not in entry:
-            raise PresetError(f"{where}: missing '{key}'")
-    name = _str(entry["name"], f"{where}: name").strip()
-    if not name:
-        raise PresetError(f"{where}: name: must not be empty")
-    if len(name) > MAX_NAME:
-        raise PresetError(f"{where}: name: longer than {MAX_NAME} characters")
-    where = f"{where} ({_clip(name)})"
+    name, where = _entry_name(entry, where, ("name", "reaction", "log_K"), f"{where}: name")
     reaction = entry["reaction"]
     if not isinstance(reaction, dict) or not reaction:
         raise PresetError(f"{where}: reaction: expected a table of species and whole-number coefficients, "
