@@ -14,7 +14,7 @@
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 
@@ -242,14 +242,69 @@ def system_distribution(mixture: Mixture, system: str, ph=None) -> Diagram:
                    np.array(res.converged), K.beyond_solution(inp))
 
 
+def _solid_name(mixture: Mixture, solid: str) -> str:
+    """The name ``solid`` stands for: a preset's own solid as written, else the library solid it
+    names by name, alias or formula (any case); unknown names are refused with suggestions."""
+    from .library import load_library
+
+    if any(c.name == solid for c in getattr(mixture, "custom_solids", ())):
+        return solid
+    lib = load_library()
+    try:
+        return lib.solid(solid).name
+    except ChemError:
+        customs = [c.name for c in getattr(mixture, "custom_solids", ())]
+        match = next((c for c in customs if c.casefold() == solid.strip().casefold()), None)
+        if match is not None:
+            return match
+        raise
+
+
+def _with_systems_of(mixture: Mixture, solid: str) -> Mixture:
+    """``mixture`` plus, at zero amount, a reagent for each library system ``solid`` needs and lacks.
+
+    An excess of the solid brings those systems itself (calcite in pure water brings calcium
+    and carbonate); a zero-amount ingredient puts them in the tableau without adding any.
+    """
+    from .library import load_library
+    from .model import AcidBaseSystem, Ingredient
+
+    lib = load_library()
+    if any(c.name == solid for c in getattr(mixture, "custom_solids", ())):
+        return mixture
+    try:
+        item = lib.solid(solid)
+    except ChemError:
+        return mixture                          # not a library solid: the candidate check says why
+    have = {sys_.name for sys_, _ in mixture.systems()}
+    index = lib.species_index
+    extra = []
+    for species, _n in item.reaction:
+        owner = index.get(species)
+        if not isinstance(owner, AcidBaseSystem) or owner.name in have:
+            continue
+        # a reagent holding this system alone (its counter-ions inert); any will do at zero amount
+        plain = [r for r in lib.reagents_of(owner) if len(r.systems) == 1 and r.units == 1]
+        if not plain:
+            return mixture
+        have.add(owner.name)
+        extra.append(Ingredient(plain[0], 0.0, "0 M"))
+    if not extra:
+        return mixture
+    return replace(mixture, ingredients=tuple(mixture.ingredients) + tuple(extra))
+
+
 def solubility(mixture: Mixture, solid: str, ph=None) -> Diagram:
     """Dissolved total of each system ``solid`` holds (mol/L) vs pH, with an excess of the solid present.
 
     The pH is imposed at each point; the solid is held saturated (it
     dissolves or grows as needed); the mixture's other amounts, fixed gases
-    and precipitation setting stay as given.
+    and precipitation setting stay as given. A library solid whose systems
+    the mixture lacks brings them (calcite in water under air).
     """
     ph = np.asarray(default_grid() if ph is None else ph, dtype=float)
+    solid = _solid_name(mixture, solid)
+    mixture = _with_systems_of(mixture, solid)
     try:
         prob, inp, res = _held(mixture, ph, solid=solid)
     except ChemError:

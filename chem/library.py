@@ -167,6 +167,16 @@ class Library:
                     if other is not None and other is not item:
                         raise LibraryError(f"{kind} name {k!r} is used twice")
                     idx[k] = item
+            # a solid's or gas's formula finds it too (CuO, CO2) where no name or alias already does
+            # and no other entry shares it (CaCO3 is calcite and aragonite: neither gets it)
+            formulas: dict[str, list] = {}
+            for item in items:
+                formula = getattr(item, "formula", "")
+                if formula:
+                    formulas.setdefault(normalise(formula), []).append(item)
+            for k, owners in formulas.items():
+                if len(owners) == 1 and k not in idx:
+                    idx[k] = owners[0]
             object.__setattr__(self, f"_{kind}_index", idx)
         solid_names = {normalise(s.name) for s in self.solids}
         for cx in self.complexes:
@@ -231,7 +241,11 @@ class Library:
         idx = getattr(self, f"_{kind}_index")
         item = idx.get(normalise(name))
         if item is None:
-            known = [i.name for i in getattr(self, {"complex": "complexes", "solid": "solids", "gas": "gases"}[kind])]
+            items = getattr(self, {"complex": "complexes", "solid": "solids", "gas": "gases"}[kind])
+            same = [i.name for i in items if normalise(getattr(i, "formula", "") or "") == normalise(name)]
+            if same:
+                raise LibraryError(f"'{name}' is the formula of {' and '.join(repr(n) for n in same)}: name one")
+            known = [i.name for i in items]
             close = [k for k in known if normalise(name) in normalise(k)][:3]
             hint = f" (did you mean {', '.join(repr(c) for c in close)}?)" if close else ""
             raise LibraryError(f"unknown {kind} '{name}'{hint}")

@@ -171,3 +171,25 @@ def test_progress_bar_shows_only_on_a_terminal_and_only_after_the_delay():
     never(0.5)
     never.close()
     assert piped.getvalue() == ""
+
+
+def test_solubility_of_calcite_in_pure_water_under_air(capsys, tmp_path):
+    # A preset with no calcium and no carbonate ingredient, only CO2 held: the excess of calcite
+    # brings both (issue: "the mixture plus an excess of that solid"). Near pH 8.3 calcite in
+    # equilibrium with air holds about 0.5 mM calcium (common practice; see
+    # tests/core/test_published_speciation.py for the source of that value).
+    preset = tmp_path / "air.toml"
+    preset.write_text('format = 1\ntitle = "water under air"\n[[gas]]\nname = "CO2"\npressure = "420 uatm"\n')
+    def run(*args):
+        code = main(["curve", str(preset), *args])
+        got = capsys.readouterr()
+        return code, got.out, got.err
+
+    code, out, err = run("--kind", "solubility", "--solid", "calcite", "--from", "8.2", "--to", "8.4",
+                         "--points", "3", "--json")
+    assert code == 0, err
+    doc = json.loads(out)
+    assert set(doc["series"]) == {"pH", "calcium", "carbonate"}
+    assert 0.3e-3 < doc["series"]["calcium"][1] < 0.8e-3
+    code, out, err = run("--kind", "solubility", "--solid", "CaCO3", "--json")
+    assert code == 2 and "name one" in err

@@ -161,3 +161,36 @@ def test_chlorine_gas_dissolves_into_hypochlorous_acid_and_chloride(activity):
     assert eq.get("Cl-").conc == pytest.approx(hocl, rel=1e-9)
     assert 1.5 < eq.pH < 3.0
     assert eq.gas("Cl2").uptake == pytest.approx(hocl + eq.get("Cl2").conc, rel=1e-9)
+
+
+def test_solubility_of_a_solid_the_mixture_lacks_brings_its_own_systems():
+    # Calcite in pure water under 420 µatm CO2, with the pH held: the classic open-system curve.
+    # No ingredient holds calcium or carbonate; the excess of calcite brings both. At a held pH,
+    # Ca2+ is pinned by Ksp, K_H·pCO2 and the two carbonate pKa's alone:
+    # log a(Ca2+) = log Ksp − log K_H − log p − log(K1·K2) − 2 pH (ideal activities; worked here
+    # from the library's constants), and the dissolved calcium adds the small complexes.
+    lib = LIB
+    co2 = chem.FixedGas(lib.gas("CO2"), 420e-6, "420 uatm")
+    m = chem.Mixture((), activity="ideal", gases=(co2,))
+    ph = np.array([7.5, 8.0, 8.5])
+    d = solubility(m, "calcite", ph)
+    assert d.converged.all()
+    calcite = lib.solid("calcite")
+    pka = lib.system("carbonate").pka_at(25.0)
+    log_ca = (calcite.log_k - co2.gas.log_k - math.log10(420e-6) + float(pka[0]) + float(pka[1]) - 2 * ph)
+    free_ca = 10.0 ** log_ca
+    ca = d.series["calcium"]
+    assert np.all(ca >= free_ca) and np.all(ca < 1.05 * free_ca + 1e-5)   # plus CaHCO3+, CaCO3°
+    # the same curve as with a zero amount of calcium chloride in the flask
+    zero = chem.Mixture((chem.Ingredient(lib.reagent("calcium chloride"), 0.0),), activity="ideal", gases=(co2,))
+    np.testing.assert_allclose(solubility(zero, "calcite", ph).series["calcium"], ca, rtol=1e-9)
+
+
+def test_a_solid_is_found_by_alias_or_formula_and_an_ambiguous_formula_is_refused():
+    m = mix(("copper(II) sulfate pentahydrate", "1 mM"))
+    ph = np.array([7.0, 9.0])
+    by_name = solubility(m, "tenorite", ph).series["copper"]
+    for other in ("copper(II) oxide", "CuO", "TENORITE"):
+        np.testing.assert_allclose(solubility(m, other, ph).series["copper"], by_name, rtol=1e-12)
+    with pytest.raises(chem.ChemError, match="formula of 'calcite' and 'aragonite'"):
+        solubility(m, "CaCO3", ph)
