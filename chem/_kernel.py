@@ -551,7 +551,6 @@ def _nested(inp: Inputs, idx, u, ionic, active, budget: int):
     lam_s = np.zeros((n, inp.sol_a.shape[0]))
     used = 0
     ionic = np.minimum(ionic, cap)
-    dead = np.zeros(n, dtype=bool)
     for _ in range(80):
         u, _, active, lam_e, lam_s, inner_ok, its = _iterate(inp, idx, u, ionic.copy(), active,
                                                              freeze_ionic=True, max_iter=200)
@@ -561,12 +560,7 @@ def _nested(inp: Inputs, idx, u, ionic, active, budget: int):
         new_i = ionic_of(inp, idx, c, lam_e)
         r = new_i - ionic
         conv = inner_ok & (np.abs(r) <= 1e-11 * np.maximum(new_i, 1e-300) + 1e-18)
-        # a point still asking for more ionic strength at a ceiling that cannot grow has no
-        # solution below it (R > 0 all the way up): it is given up at once, not iterated to
-        # the budget (a solid held in excess where it would dissolve to thousands of mol/L)
-        growable = (inp.counter_row is not None) & (cap < 1e3)
-        dead |= inner_ok & ~conv & (r > 0) & (ionic >= cap * (1 - 1e-12)) & ~growable
-        if (conv | dead).all() or used >= budget:
+        if conv.all() or used >= budget:
             break
         up, down = r > 0, r < 0
         r_hi = np.where(up & (last > 0), 0.5 * r_hi, r_hi)     # Illinois modification

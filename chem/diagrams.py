@@ -20,7 +20,7 @@ import numpy as np
 
 from . import _kernel as K
 from ._solver import kernel_inputs, layout_of, run_kernel, water_constants
-from .errors import ChemError, ModelError
+from .errors import ModelError
 from .model import Mixture
 from .problem import LN10, compile
 
@@ -242,40 +242,24 @@ def system_distribution(mixture: Mixture, system: str, ph=None) -> Diagram:
                    np.array(res.converged), K.beyond_solution(inp))
 
 
-def _solid_name(mixture: Mixture, solid: str) -> str:
-    """The name ``solid`` stands for: a preset's own solid as written, else the library solid it
-    names by name, alias or formula (any case); unknown names are refused with suggestions."""
-    from .library import load_library
+def _with_solid(mixture: Mixture, solid: str) -> tuple[Mixture, str]:
+    """(mixture, the solid's name) for a solubility curve of ``solid``.
 
-    if any(c.name == solid for c in getattr(mixture, "custom_solids", ())):
-        return solid
-    lib = load_library()
-    try:
-        return lib.solid(solid).name
-    except ChemError:
-        customs = [c.name for c in getattr(mixture, "custom_solids", ())]
-        match = next((c for c in customs if c.casefold() == solid.strip().casefold()), None)
-        if match is not None:
-            return match
-        raise
-
-
-def _with_systems_of(mixture: Mixture, solid: str) -> Mixture:
-    """``mixture`` plus, at zero amount, a reagent for each library system ``solid`` needs and lacks.
-
-    An excess of the solid brings those systems itself (calcite in pure water brings calcium
-    and carbonate); a zero-amount ingredient puts them in the tableau without adding any.
+    A preset's own solid is taken as written (any case); otherwise the library solid named by
+    name, alias or formula (unknown names are refused with suggestions). The library solid's
+    systems the mixture lacks are added at zero amount: an excess of the solid brings them
+    itself (calcite in pure water brings calcium and carbonate), and a zero-amount ingredient
+    puts them in the tableau without adding any.
     """
     from .library import load_library
     from .model import AcidBaseSystem, Ingredient
 
+    key = solid.strip().casefold()
+    custom = next((c.name for c in mixture.custom_solids if c.name.casefold() == key), None)
+    if custom is not None:
+        return mixture, custom
     lib = load_library()
-    if any(c.name == solid for c in getattr(mixture, "custom_solids", ())):
-        return mixture
-    try:
-        item = lib.solid(solid)
-    except ChemError:
-        return mixture                          # not a library solid: the candidate check says why
+    item = lib.solid(solid)
     have = {sys_.name for sys_, _ in mixture.systems()}
     index = lib.species_index
     extra = []
@@ -286,12 +270,12 @@ def _with_systems_of(mixture: Mixture, solid: str) -> Mixture:
         # a reagent holding this system alone (its counter-ions inert); any will do at zero amount
         plain = [r for r in lib.reagents_of(owner) if len(r.systems) == 1 and r.units == 1]
         if not plain:
-            return mixture
+            return mixture, item.name          # the candidate check then says what is missing
         have.add(owner.name)
         extra.append(Ingredient(plain[0], 0.0, "0 M"))
-    if not extra:
-        return mixture
-    return replace(mixture, ingredients=tuple(mixture.ingredients) + tuple(extra))
+    if extra:
+        mixture = replace(mixture, ingredients=tuple(mixture.ingredients) + tuple(extra))
+    return mixture, item.name
 
 
 def solubility(mixture: Mixture, solid: str, ph=None) -> Diagram:
@@ -303,12 +287,8 @@ def solubility(mixture: Mixture, solid: str, ph=None) -> Diagram:
     the mixture lacks brings them (calcite in water under air).
     """
     ph = np.asarray(default_grid() if ph is None else ph, dtype=float)
-    solid = _solid_name(mixture, solid)
-    mixture = _with_systems_of(mixture, solid)
-    try:
-        prob, inp, res = _held(mixture, ph, solid=solid)
-    except ChemError:
-        raise
+    mixture, solid = _with_solid(mixture, solid)
+    prob, inp, res = _held(mixture, ph, solid=solid)
     st = prob.structure
     q = [s.name for s in st.solids].index(solid)
     series: dict[str, np.ndarray] = {}

@@ -76,7 +76,7 @@ def scripted_root(mix: Mixture, start_scale: float = 1.0):
     nu = st.nu
     tot = prob.totals
     zc = st.z_comp
-    a, b = inp.a[0], inp.b[0]
+    a = inp.a[0]
 
     def run():
         u = u_true + start_scale * 0.5

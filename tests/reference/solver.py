@@ -639,7 +639,6 @@ class _Solver:
         p = self.p
         u, c, grad, lam, amounts, lng = state
         ln10 = mp.log(10)
-        n_gas = sum(1 for g in p.gases if g[3] is not None)
         species = {sp.name: RSpecies(sp.name, sp.kind, sp.system, sp.charge, cs, mp.exp(g), sp.protons, sp.units)
                    for sp, cs, g in zip(p.species, c, lng)}
         # uptake from each fixed gas: grad = uptake · ν_gas, so uptake = −λ_gas

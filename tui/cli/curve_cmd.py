@@ -138,6 +138,8 @@ class _Result:
     equivalence: list[tuple[float, float]] = field(default_factory=list)
     notes: list[str] = field(default_factory=list)
     not_converged: int = 0
+    no_solution: str = ""
+    """The note on points without a solution (left empty), also said on stderr with --json/--csv."""
     curve: object = None
     """The chem curve behind the series (titration, dilution, sweep), for --uncertainty."""
     level_name: str | None = None
@@ -417,10 +419,12 @@ def _held_diagram(args, mixture, grid, eq) -> _Result:
     marks = [eq.pH] if grid[0] <= eq.pH <= grid[-1] else []
     none = 0 if d.no_solution is None else int(d.no_solution.sum())
     bad = 0 if d.converged is None else int((~d.converged).sum()) - none
-    if none:
-        notes.append(f"{none} point(s) have no solution and are left empty: there a free ion would pass "
-                     "30 mol/L (no aqueous solution holds that)")
-    return _Result(args.kind, "pH", d.ph, series, names, ylabel, "pH", marks=marks, notes=notes, not_converged=bad)
+    empty = (f"{none} point(s) have no solution and are left empty: there a free ion would pass 30 mol/L "
+             "(no aqueous solution holds that)") if none else ""
+    if empty:
+        notes.append(empty)
+    return _Result(args.kind, "pH", d.ph, series, names, ylabel, "pH", marks=marks, notes=notes, not_converged=bad,
+                   no_solution=empty)
 
 
 def _held(args, mixture, progress) -> _Result:
@@ -564,10 +568,8 @@ def run(args) -> int:
     if res.not_converged:
         print(f"protomix: warning: {res.not_converged} point(s) did not converge; their numbers are unreliable",
               file=sys.stderr)
-    if args.json or args.csv:
-        for note in res.notes:
-            if "have no solution" in note:
-                print(f"protomix: note: {note}", file=sys.stderr)
+    if res.no_solution and (args.json or args.csv):
+        print(f"protomix: note: {res.no_solution}", file=sys.stderr)
     if args.json:
         sys.stdout.write(safe_json(json.dumps(to_json(res), ensure_ascii=False)) + "\n")
     elif args.csv:
