@@ -37,9 +37,6 @@ except ImportError:                                     # not on every platform
     fcntl = None  # type: ignore[assignment]
 
 DATA_DIR_ENV = "PROTOMIX_DATA_DIR"
-#: Autosave files of running or ended sessions: ``session-<id>.toml`` (and the
-#: single ``session.toml`` of earlier versions).
-AUTOSAVE_GLOB = "session*.toml"
 #: Suffix given to an autosave that cannot be read, when it is moved aside (no longer offered).
 UNREADABLE_SUFFIX = ".unreadable"
 

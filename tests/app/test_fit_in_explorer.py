@@ -133,3 +133,34 @@ async def test_i_shows_the_ph_uncertainty_in_the_readout_and_a_band_on_the_titra
         await settle(pilot)
         assert "±" not in text_of(app.query_one(Readout))
         assert "band" not in app.query_one(PlotArea).image.plain
+
+
+async def test_a_titrant_system_pka_fitted_in_the_form_can_be_plotted(sample, library, tmp_path, settle):
+    """The titrant's own system (ammonia) is a valid parameter: closing the form after such a fit
+    used to end in an internal error, because the titrant was not passed when reading it again.
+    Loading is refused with the reason (no ingredient of the sample carries ammonia's pKa)."""
+    v = np.linspace(0.5, 16.0, 30)
+    nh3 = library.reagent("ammonia")
+    curve = chem.titration(sample, nh3, 0.1, 0.100, 0.017)
+    ph = np.interp(v / 1000, curve.volume_L, curve.pH) + np.random.default_rng(5).normal(0, 0.003, v.size)
+    path = tmp_path / "nh3.csv"
+    path.write_text("volume_mL,pH\n" + "".join(f"{a:.3f},{b:.4f}\n" for a, b in zip(v, ph)))
+    app = ExplorerApp(sample)
+    async with app.run_test(size=(120, 40)) as pilot:
+        await settle(pilot)
+        await pilot.press("f")
+        await wait_until(pilot, lambda: isinstance(app.screen, FitForm))
+        form = app.screen
+        await fill(pilot, str(path), "ammonia", "0.1 M", "100 mL", "pKa:ammonia:1; titrant")
+        await pilot.press("enter")
+        await wait_until(pilot, lambda: form.result is not None, timeout=20)
+        assert abs(form.result.parameters[0].value - 9.24) < 0.05      # ammonium's pKa, as generated
+        await pilot.press("ctrl+l")
+        await settle(pilot)
+        assert app.screen is form
+        assert "nothing to load" in str(form.query_one("#fit-error").content)
+        await pilot.press("ctrl+g")
+        await settle(pilot)
+        assert app.screen is app.screen_stack[0]
+        assert app.plot_kind == "titration"
+        assert app.mixture == sample

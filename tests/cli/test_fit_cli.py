@@ -188,3 +188,21 @@ def test_recipe_says_how_sure():
     assert out.returncode == 0 and "how sure: pH 7.40 ±" in out.stdout and "weighing" in out.stdout
     doc = json.loads(run("recipe", "--system", "tris", "--pH", "7.4", "--json").stdout)
     assert doc["uncertainty"]["from_weighing_sd"] > 0 and doc["uncertainty"]["from_constants_sd"] > 0
+
+
+def test_names_from_the_preset_reach_the_terminal_escaped_in_text_and_json(files):
+    """A colleague's preset names its acid with a bidirectional override and a C1 control:
+    neither reaches the terminal raw; the JSON keeps the name exactly (as \\u escapes)."""
+    evil = SAMPLE.replace("acid Y", "acid \\u202e\\u0085Y")
+    (files / "evil.toml").write_text(evil)
+    name = "amount:acid \u202e\u0085Y"
+    args = ["fit", "evil.toml", "run.csv", "--titrant", "NaOH", "--titrant-conc", "0.1 M", "--sample", "100 mL",
+            "--vary", name]
+    text = run(*args, cwd=files)
+    assert text.returncode == 0, text.stderr
+    assert "\u202e" not in text.stdout and "\u0085" not in text.stdout
+    assert "amount:acid \\u202e\\x85Y" in text.stdout
+    out = run(*args, "--json", cwd=files)
+    assert out.returncode == 0, out.stderr
+    assert "\u202e" not in out.stdout and "\u0085" not in out.stdout
+    assert json.loads(out.stdout)["parameters"][0]["name"] == name

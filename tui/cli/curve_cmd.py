@@ -19,6 +19,8 @@ import time
 from dataclasses import dataclass, field
 from typing import TYPE_CHECKING
 
+from tui.cli import EXIT_NO_ANSWER, EXIT_OK
+
 if TYPE_CHECKING:          # numpy is imported only when a curve is computed (keeps --help fast)
     import numpy as np
 
@@ -588,4 +590,4 @@ def run(args) -> int:
         print(render_plot(res, width, height, color=color, utf8=utf8))
         for note in res.notes:
             print(printable(note))
-    return 3 if res.not_converged else 0
+    return EXIT_NO_ANSWER if res.not_converged else EXIT_OK

@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import json
 import math
+import os
 import sys
 from pathlib import Path
 
@@ -132,10 +133,16 @@ def run(args) -> int:
     from chem import (find_reagent, fit_titration, load_preset, parse_concentration, parse_volume, read_titration,
                       save_preset)
 
-    if args.save and not args.force and Path(args.save).exists():
-        print(f"protomix: error: {args.save} already exists; not overwritten (add --force to replace it)",
-              file=sys.stderr)
-        return 2
+    from tui.text import printable, safe_json
+
+    if args.save:
+        from chem import check_save_target
+
+        if not args.force and os.path.lexists(args.save):
+            print(f"protomix: error: {printable(args.save)} already exists; not overwritten "
+                  "(add --force to replace it)", file=sys.stderr)
+            return 2
+        check_save_target(args.save, overwrite=args.force)       # before the fit: fail with one line
     mixture = load_preset(args.sample)
     data = read_titration(args.data)
     titrant = find_reagent(args.titrant, mixture)
@@ -143,15 +150,14 @@ def run(args) -> int:
     sample = parse_volume(args.sample_volume)
     result = fit_titration(mixture, data, titrant, conc, sample, args.vary)
     if args.json:
-        json.dump(result.to_dict(), sys.stdout, indent=2, ensure_ascii=False)
-        sys.stdout.write("\n")
+        sys.stdout.write(safe_json(json.dumps(result.to_dict(), indent=2, ensure_ascii=False)) + "\n")
     else:
-        print(render_fit(result, Path(args.sample).name))
+        print(printable(render_fit(result, Path(args.sample).name), newlines=True))
     if args.save:
         if result.mixture is None:
             print("protomix: error: the fitted sample cannot be written as a preset "
-                  f"({'; '.join(result.notes) or 'see above'})", file=sys.stderr)
+                  f"({printable('; '.join(result.notes)) or 'see above'})", file=sys.stderr)
             return 2
         path = save_preset(result.mixture, args.save, overwrite=args.force)
-        print(f"saved the fitted sample as {path}", file=sys.stderr if args.json else sys.stdout)
+        print(f"saved the fitted sample as {printable(str(path))}", file=sys.stderr if args.json else sys.stdout)
     return 0

@@ -4,6 +4,8 @@ from __future__ import annotations
 
 import sys
 
+from tui.cli import EXIT_NO_ANSWER
+
 HELP = "list acid–base systems and reagents (matching QUERY), with pKa and sources"
 
 EPILOG = "Nothing matching QUERY: one line on stderr and exit status 3."
@@ -46,7 +48,7 @@ def run(args) -> int:
     hits = lib.search(args.query)
     if not hits:
         print(f"protomix: nothing in the library matches '{one_line(args.query, 80)}'", file=sys.stderr)
-        return 3
+        return EXIT_NO_ANSWER
     lines = []
     for item in hits:
         lines.append(_system_line(item) if isinstance(item, AcidBaseSystem) else _reagent_line(item))

@@ -11,6 +11,7 @@ import math
 import os
 import sys
 
+from tui.cli import EXIT_NO_ANSWER
 from tui.cli.solve_cmd import notice_lines
 
 HELP = "design a buffer recipe (grams, titrant or stock volumes) for a pH at a temperature"
@@ -269,5 +270,5 @@ def run(args) -> int:
               file=sys.stderr if args.json else sys.stdout)
     if not recipe.equilibrium.converged:
         print("protomix: warning: the recipe's solve did not converge; its numbers are unreliable", file=sys.stderr)
-        return 3
+        return EXIT_NO_ANSWER
     return 0

@@ -6,6 +6,8 @@ import json
 import math
 import sys
 
+from tui.cli import EXIT_NO_ANSWER
+
 HELP = "print the equilibrium of a preset as a table (or --json)"
 
 EPILOG = "A solve that does not converge still prints its numbers, marked unreliable, and exits with status 3."
@@ -142,7 +144,7 @@ def run(args) -> int:
             print(printable("\n".join(uncertainty_lines(unc)), newlines=True))
     if not eq.converged:
         print("protomix: warning: the solve did not converge; the numbers above are unreliable", file=sys.stderr)
-        return 3
+        return EXIT_NO_ANSWER
     return 0
 
 

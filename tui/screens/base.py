@@ -14,7 +14,10 @@ from typing import TypeVar
 from textual import on
 from textual.await_complete import AwaitComplete
 from textual.screen import ModalScreen
-from textual.widgets import Input
+from textual.content import Content
+from textual.widgets import Input, Label
+
+from tui.text import printable
 
 T = TypeVar("T")
 
@@ -31,21 +34,45 @@ class Dialog(ModalScreen[T]):
         return super().dismiss(result)
 
 
+def show_text(label: Label, text: str) -> None:
+    """Show ``text`` in ``label`` as it is (never read as markup), redrawing only when it changed."""
+    text = printable(text)
+    if str(label.content) != text:
+        label.update(Content(text))
+
+
+def first_problem(problems: dict[str, str], screen: Dialog, prefix: str) -> str:
+    """The problem of the field being typed in (id ``prefix`` + key), else the first one, else ""."""
+    focused = screen.focused.id if screen.focused is not None and screen.focused.id else ""
+    return problems.get(focused.removeprefix(prefix)) or next(iter(problems.values()), "")
+
+
 class CheckedForm(Dialog[T]):
     """A dialog of entry fields checked as they are typed; enter accepts once every field is valid.
 
-    Subclasses give :attr:`field_prefix` (the fields' ids are ``{prefix}-{key}``),
-    :meth:`_check` (the problems, keyed by field, in field order; shown by the
-    subclass) and :meth:`current` (the value the form dismisses with).
+    Subclasses give :attr:`field_prefix` (the fields' ids are ``{prefix}-{key}`` and the error
+    line's ``{prefix}-error``), :attr:`FIELDS` (tuples led by each field's key),
+    :meth:`problems` (the problems, keyed by field, in field order) and :meth:`current` (the
+    value the form dismisses with); :meth:`accept` may do something else with a valid form.
     """
 
     field_prefix = ""
+    FIELDS: tuple[tuple[str, ...], ...] = ()
 
-    def _check(self) -> dict[str, str]:
+    def problems(self) -> dict[str, str]:
         raise NotImplementedError
 
     def current(self) -> T:
         raise NotImplementedError
+
+    def _check(self) -> dict[str, str]:
+        """Mark the fields with a problem and show the first one; returns them all."""
+        problems = self.problems()
+        for field in self.FIELDS:
+            self.query_one(f"#{self.field_prefix}-{field[0]}", Input).set_class(field[0] in problems, "-invalid")
+        show_text(self.query_one(f"#{self.field_prefix}-error", Label),
+                  first_problem(problems, self, f"{self.field_prefix}-"))
+        return problems
 
     @on(Input.Changed)
     def _changed(self) -> None:
@@ -57,6 +84,10 @@ class CheckedForm(Dialog[T]):
     @on(Input.Submitted)
     def _submitted(self, event: Input.Submitted) -> None:
         event.stop()
+        self.submitted(event.input)
+
+    def submitted(self, entry: Input) -> None:
+        """Enter in ``entry``: accept the form (a subclass may first use the key itself)."""
         self.action_accept()
 
     def action_accept(self) -> None:
@@ -65,6 +96,10 @@ class CheckedForm(Dialog[T]):
             self.query_one(f"#{self.field_prefix}-{next(iter(problems))}", Input).focus()
             self.app.bell()
             return
+        self.accept()
+
+    def accept(self) -> None:
+        """What a valid form does: close with its value."""
         self.dismiss(self.current())
 
     def action_cancel(self) -> None:

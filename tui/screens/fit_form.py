@@ -22,12 +22,12 @@ from textual import on, work
 from textual.app import ComposeResult
 from textual.binding import Binding
 from textual.containers import Horizontal, Vertical
-from textual.screen import ModalScreen
 from textual.widgets import Input, Label, Static
 from textual.worker import get_current_worker
 
 import chem
-from tui.screens.recipe_form import first_problem, named, show_text
+from tui.screens.base import CheckedForm, show_text
+from tui.screens.recipe_form import named
 from tui.widgets.curve_kinds import TitrationSettings
 
 
@@ -91,7 +91,7 @@ def result_lines(result) -> list[str]:
     return lines
 
 
-class FitForm(ModalScreen["FitOutcome | None"]):
+class FitForm(CheckedForm["FitOutcome | None"]):
     """Asks for a measured titration and what to fit; fits and shows the values with their ±."""
 
     DEFAULT_CSS = """
@@ -107,6 +107,8 @@ class FitForm(ModalScreen["FitOutcome | None"]):
         height: auto;
     }
     """
+
+    field_prefix = "fit"
 
     BINDINGS = [
         Binding("escape", "cancel", "Close", tooltip="Close without changing anything"),
@@ -214,31 +216,13 @@ class FitForm(ModalScreen["FitOutcome | None"]):
         for p in params:
             parse_parameter(p, self.mixture, titrant)
 
-    def _check(self) -> dict[str, str]:
-        problems = self.problems()
-        for key, _, _ in self.FIELDS:
-            self.query_one(f"#fit-{key}", Input).set_class(key in problems, "-invalid")
-        show_text(self.query_one("#fit-error", Label), first_problem(problems, self, "fit-"))
-        return problems
-
     # -- events ------------------------------------------------------------------------------
-    @on(Input.Changed)
-    def _changed(self, event: Input.Changed) -> None:
-        if event.input.id == "fit-path":
-            self._data_cache = None
-        self._check()
+    @on(Input.Changed, "#fit-path")
+    def _path_typed(self) -> None:
+        self._data_cache = None                     # read the file again (it may have changed on disk)
 
-    def on_descendant_focus(self) -> None:
-        self._check()
-
-    @on(Input.Submitted)
-    def _submit(self, event: Input.Submitted) -> None:
-        event.stop()
-        problems = self._check()
-        if problems:
-            self.query_one(f"#fit-{next(iter(problems))}", Input).focus()
-            self.app.bell()
-            return
+    def accept(self) -> None:
+        """Enter with every field valid: fit (in a worker) and show the values with their ±."""
         req = self.current()
         data, titrant, conc, sample = self.read()
         show_text(self.query_one("#fit-result", Static), "fitting…")
@@ -283,15 +267,12 @@ class FitForm(ModalScreen["FitOutcome | None"]):
             self.app.bell()
             return
         conc = req.conc
-        if result is not None and any(p.kind == "titrant" for p in self._params(req)):
+        if result is not None and any(p.kind == "titrant" for p in self._params(req, result.titrant)):
             conc = f"{result.titrant_conc:.6g} M"
         to = f"{float(data.volume_mL[-1]):g} mL"
         self.dismiss(FitOutcome(action, req, data, TitrationSettings(req.titrant, conc, req.sample, to), result))
 
-    def _params(self, req: FitRequest):
+    def _params(self, req: FitRequest, titrant):
         from chem import parse_parameter
 
-        return [parse_parameter(p, self.mixture) for p in req.parameters()]
-
-    def action_cancel(self) -> None:
-        self.dismiss(None)
+        return [parse_parameter(p, self.mixture, titrant) for p in req.parameters()]

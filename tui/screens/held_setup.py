@@ -25,7 +25,7 @@ from textual.widgets import Input, Label
 
 import chem
 from tui.screens.base import CheckedForm
-from tui.screens.recipe_form import Cycler, first_problem, named, show_text
+from tui.screens.recipe_form import Cycler, named
 from tui.widgets.curve_kinds import read_ph
 from tui.widgets.speciation_kinds import HeldSettings
 
@@ -139,13 +139,6 @@ class HeldSetup(CheckedForm["HeldSettings | None"]):
             except chem.ChemError as exc:
                 out["to"] = named("to pH", exc)
         return out
-
-    def _check(self) -> dict[str, str]:
-        problems = self.problems()
-        for key, _ in self.FIELDS:
-            self.query_one(f"#held-{key}", Input).set_class(key in problems, "-invalid")
-        show_text(self.query_one("#held-error", Label), first_problem(problems, self, "held-"))
-        return problems
 
     # -- events ------------------------------------------------------------------------------
     @on(Cycler.Changed)

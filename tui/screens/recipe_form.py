@@ -46,7 +46,7 @@ from textual.worker import Worker, WorkerState, get_current_worker
 
 import chem
 from chem import STANDARD_TEMPERATURE_C
-from tui.screens.base import Dialog
+from tui.screens.base import Dialog, first_problem, show_text
 from tui.cli.curve_cmd import p_label
 from tui.text import printable
 from tui.widgets.curve_kinds import read_celsius, read_ph
@@ -462,19 +462,6 @@ class RecipeForm(Dialog["Recipe | tuple[str, Recipe] | None"]):
 
     def action_cancel(self) -> None:
         self.dismiss(None)
-
-
-def show_text(label: Label, text: str) -> None:
-    """Show ``text`` in ``label`` as it is (never read as markup), redrawing only when it changed."""
-    text = printable(text)
-    if str(label.content) != text:
-        label.update(Content(text))
-
-
-def first_problem(problems: dict[str, str], screen: Dialog, prefix: str) -> str:
-    """The problem of the field being typed in (id ``prefix`` + key), else the first one, else ""."""
-    focused = screen.focused.id if screen.focused is not None and screen.focused.id else ""
-    return problems.get(focused.removeprefix(prefix)) or next(iter(problems.values()), "")
 
 
 def named(field: str, error: Exception) -> str:

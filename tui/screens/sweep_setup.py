@@ -30,7 +30,7 @@ from textual.widgets import Input, Label
 
 import chem
 from tui.screens.base import CheckedForm
-from tui.screens.recipe_form import Cycler, first_problem, named, show_text
+from tui.screens.recipe_form import Cycler, named
 from tui.widgets.curve_kinds import MAX_SWEEP_POINTS, SweepSettings, default_sweep
 
 TEMPERATURE = "temperature"
@@ -157,13 +157,6 @@ class SweepSetup(CheckedForm["SweepSettings | None"]):
     def current(self) -> SweepSettings:
         """The settings as typed now; only call when :meth:`problems` finds none."""
         return SweepSettings(self.vary, self._text("from"), self._text("to"), self._points(), self.show)
-
-    def _check(self) -> dict[str, str]:
-        problems = self.problems()
-        for key, _ in self.FIELDS:
-            self.query_one(f"#sweep-{key}", Input).set_class(key in problems, "-invalid")
-        show_text(self.query_one("#sweep-error", Label), first_problem(problems, self, "sweep-"))
-        return problems
 
     # -- events ------------------------------------------------------------------------------
     @on(Cycler.Changed, "#sweep-show")

@@ -29,9 +29,9 @@ from textual.widgets import Input, Label, OptionList
 from textual.widgets.option_list import Option
 
 import chem
-from tui.screens.base import Dialog
+from tui.screens.base import CheckedForm
 from tui.screens.finder import matching_reagents
-from tui.screens.recipe_form import first_problem, named, show_text
+from tui.screens.recipe_form import named
 from tui.text import printable
 from tui.widgets.curve_kinds import (DEFAULT_SAMPLE, DEFAULT_TITRANT_CONC, DEFAULT_TO, TitrationSettings)
 
@@ -39,7 +39,7 @@ from tui.widgets.curve_kinds import (DEFAULT_SAMPLE, DEFAULT_TITRANT_CONC, DEFAU
 MAX_MATCHES = 5
 
 
-class TitrationSetup(Dialog["TitrationSettings | None"]):
+class TitrationSetup(CheckedForm["TitrationSettings | None"]):
     """Asks for the titrant, its stock concentration, the sample volume and the last volume added."""
 
     DEFAULT_CSS = """
@@ -57,6 +57,8 @@ class TitrationSetup(Dialog["TitrationSettings | None"]):
         height: auto;
     }
     """
+
+    field_prefix = "titration"
 
     BINDINGS = [
         Binding("escape", "cancel", "Close", tooltip="Close without changing the titration"),
@@ -151,14 +153,6 @@ class TitrationSetup(Dialog["TitrationSettings | None"]):
         hint = f" (did you mean {', '.join(close)}?)" if close else ""
         return f"no species '{track}' in the sample or the titrant{hint}"
 
-    def _check(self) -> dict[str, str]:
-        """Mark the fields chem refuses and show the first problem; returns them all."""
-        problems = self.problems()
-        for key, _, _ in self.FIELDS:
-            self.query_one(f"#titration-{key}", Input).set_class(key in problems, "-invalid")
-        show_text(self.query_one("#titration-error", Label), first_problem(problems, self, "titration-"))
-        return problems
-
     # -- titrant matches ---------------------------------------------------------------------
     def _matches_shown(self) -> bool:
         return bool(self.query_one("#titrant-matches", OptionList).display)
@@ -207,36 +201,21 @@ class TitrationSetup(Dialog["TitrationSettings | None"]):
             self._take_match(event.option.id)
 
     # -- events ------------------------------------------------------------------------------
-    @on(Input.Changed)
-    def _changed(self, event: Input.Changed) -> None:
-        if event.input.id == "titration-titrant" and event.input.has_focus:
+    @on(Input.Changed, "#titration-titrant")
+    def _titrant_typed(self, event: Input.Changed) -> None:
+        if event.input.has_focus:
             self._fill_matches(event.value)
-        self._check()
-
-    def on_descendant_focus(self) -> None:
-        self._check()                                   # show the problem of the field now being typed in
 
     @on(Input.Blurred, "#titration-titrant")
     def _left_titrant(self) -> None:
         self.query_one("#titrant-matches").display = False
 
-    @on(Input.Submitted)
-    def _submit(self, event: Input.Submitted) -> None:
-        event.stop()
+    def submitted(self, entry: Input) -> None:
         listing = self.query_one("#titrant-matches", OptionList)
-        if event.input.id == "titration-titrant" and self._matches_shown() and listing.highlighted is not None:
+        if entry.id == "titration-titrant" and self._matches_shown() and listing.highlighted is not None:
             option = listing.get_option_at_index(listing.highlighted)
             if option.id is not None:
                 self._take_match(option.id)
                 return
-        problems = self._check()
-        if problems:
-            key = next(iter(problems))
-            self.query_one(f"#titration-{key}", Input).focus()
-            self.app.bell()
-            return
-        self.dismiss(self.current())
-
-    def action_cancel(self) -> None:
-        self.dismiss(None)
+        super().submitted(entry)
 

@@ -23,7 +23,7 @@ from tui.widgets.curve_kinds import (_BOX_TO_ASCII, Mark, TitrationSettings, _gu
 from tui.widgets.plot_kinds import Drawing, PlotKind, PlotRequest
 
 #: Marker of a measured point (colour on) and of the band's edges.
-POINT_MARKER, BAND_MARKER = "dot", "braille"
+POINT_MARKER = "dot"
 
 
 @dataclass(frozen=True, eq=False)

@@ -191,8 +191,8 @@ class Readout(Widget):
         if eq is None:
             return
         width = self.content_size.width
-        if not width:                                   # not laid out yet: draw now, and again once it is
-            self.call_after_refresh(self._redraw)
+        # not laid out yet (width 0, or a terminal below the minimum size): draw now; on_resize
+        # draws again once there is room (rescheduling here would spin while the terminal is small)
         digits = big_digits(f"{eq.pH:.2f}")
         side: list[list[Piece]] = [[(f"pH  {eq.pH:.3f}", "readout--bold")], [(f"pOH {eq.pOH:.3f}", "")], []]
         if self.ph_sd is not None:
