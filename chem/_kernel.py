@@ -254,8 +254,10 @@ def _max_step(inp: Inputs, idx, u, d, active):
     cand = (~active) & inp.allowed[idx] & (ad > 1e-300)
     with np.errstate(divide="ignore", invalid="ignore"):
         alpha = np.where(cand, np.maximum(slack, 0.0) / ad, np.inf)
-    j = np.argmin(alpha, axis=1)
-    best = alpha[np.arange(p), j]
+    best = alpha.min(axis=1)
+    # solids that block within round-off of each other (symmetric ones do): the first of them, so that
+    # the choice does not hang on the last bit of the step (the compiled iteration chooses the same)
+    j = np.argmax(alpha <= best[:, None] * (1.0 + 1e-9), axis=1)
     block = np.where(best < 1.0, j, -1)
     return np.minimum(best, 1.0), block
 
@@ -462,16 +464,17 @@ def beyond_solution(inp: Inputs) -> np.ndarray:
 
 
 def solve(inp: Inputs, u0: np.ndarray, i0: np.ndarray, *, max_iter: int = 200,
-          active0: np.ndarray | None = None) -> Result:
+          active0: np.ndarray | None = None, crude: bool = False) -> Result:
     """Solve every point of ``inp`` from the starting values ``u0`` (P, nc) and ``i0`` (P,).
 
     Points :func:`beyond_solution` flags are not iterated: they come back
-    unconverged with NaN concentrations.
+    unconverged with NaN concentrations.  ``crude`` says the start is
+    :func:`crude_start` (the compiled iteration then sweeps first).
     """
     beyond = beyond_solution(inp)
     if beyond.any():
         return _solve_within(inp, u0, i0, max_iter, active0, beyond)
-    return _solve(inp, u0, i0, max_iter=max_iter, active0=active0)
+    return _solve(inp, u0, i0, max_iter=max_iter, active0=active0, crude=crude)
 
 
 def _solve_within(inp: Inputs, u0, i0, max_iter, active0, beyond) -> Result:
@@ -500,7 +503,7 @@ def _solve_within(inp: Inputs, u0, i0, max_iter, active0, beyond) -> Result:
 
 
 def _solve(inp: Inputs, u0: np.ndarray, i0: np.ndarray, *, max_iter: int = 200,
-           active0: np.ndarray | None = None) -> Result:
+           active0: np.ndarray | None = None, crude: bool = False) -> Result:
     p = inp.points
     idx = np.arange(p)
     u = np.array(u0, dtype=float, copy=True)
@@ -520,8 +523,12 @@ def _solve(inp: Inputs, u0: np.ndarray, i0: np.ndarray, *, max_iter: int = 200,
     with np.errstate(over="ignore", under="ignore", invalid="ignore", divide="ignore"):
         # with the ionic strength free the nested search backs this stage up; without, it has it all
         budget = min(max_iter, 60) if not (freeze or inp.model.ideal) else max_iter
-        u, ionic, active, lam_e, lam_s, conv, its = _iterate(inp, idx, u, ionic, active,
-                                                              freeze_ionic=freeze, max_iter=budget)
+        one = _native_iterate(inp, u, ionic, active, freeze, budget, crude) if p == 1 else None
+        if one is not None:
+            u, ionic, active, lam_e, lam_s, conv, its = one
+        else:
+            u, ionic, active, lam_e, lam_s, conv, its = _iterate(inp, idx, u, ionic, active,
+                                                                  freeze_ionic=freeze, max_iter=budget)
         iterations = its
         rest = np.nonzero(~conv)[0]
         if rest.size and not freeze and not inp.model.ideal and max_iter > budget:
@@ -537,6 +544,44 @@ def _solve(inp: Inputs, u0: np.ndarray, i0: np.ndarray, *, max_iter: int = 200,
         amounts[:, keep] = res.amounts
         res.amounts = amounts
     return res
+
+
+def native_ready(inp: Inputs) -> bool:
+    """Whether the compiled single-point iteration (:mod:`chem._native`) can take ``inp``."""
+    from . import _native
+
+    return _native.available and _native.knows(inp.model)
+
+
+def crude_start(inp: Inputs, h_fixed: float | None = None) -> tuple[np.ndarray, np.ndarray]:
+    """Starting values for one point: every component free at its total, pH 7 (or the held pH), and
+    the ionic strength of the totals as free ions."""
+    tot = inp.totals[0]
+    u = np.where(tot > 0, np.log(np.maximum(tot, 1e-300)), -50.0)
+    u[0] = -7.0 * _LN10 if h_fixed is None else h_fixed
+    if inp.fixed_ionic is not None:
+        i0 = float(inp.fixed_ionic[0])
+    else:
+        i0 = float(inp.inert_i[0]) + 0.5 * float(np.abs(tot[1:]).sum()) + 1e-7
+    return u[None], np.array([i0])
+
+
+def _native_iterate(inp: Inputs, u, ionic, active, freeze: bool, budget: int, crude: bool = False):
+    """:func:`_iterate` for a batch of one by the compiled iteration (:mod:`chem._native`), or None.
+
+    None when there is no compiled iteration, or when its Newton system was
+    singular (the numpy iteration then solves by least squares from the start).
+    """
+    from . import _native
+
+    if not _native.available:
+        return None
+    got = _native.iterate(inp, u[0], float(ionic[0]), active[0], freeze_ionic=freeze, max_iter=budget,
+                          cap_i=float(_ionic_cap(inp, np.arange(1))[0]), presweep=crude)
+    if got is None or got[5] == -2:
+        return None
+    u1, i1, a1, le, ls, status, its = got
+    return (u1[None], np.array([i1]), a1[None], le[None], ls[None], np.array([status == 1]), its)
 
 
 def _nested(inp: Inputs, idx, u, ionic, active, budget: int):

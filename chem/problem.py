@@ -168,6 +168,19 @@ class Structure:
             cache[t_c] = lk
         return lk
 
+    def value_at(self, name: str, t_c: float) -> np.ndarray:
+        """``getattr(self, name).at(t_c)`` for one temperature (``sol_logk``, ``sol_ksp``, ``gas_kh``):
+        read-only, cached."""
+        cache = self.cache.setdefault(name, {})
+        v = cache.get(t_c)
+        if v is None:
+            v = np.asarray(getattr(self, name).at(t_c), dtype=float)
+            v.setflags(write=False)
+            if len(cache) > 256:
+                cache.clear()
+            cache[t_c] = v
+        return v
+
     @property
     def n_species(self) -> int:
         return len(self.species)
