@@ -636,9 +636,15 @@ def _ionic_cap(inp: Inputs, idx) -> np.ndarray:
     within |T_H| plus the other totals' protons (and 1 M covers pure water).
     """
     nu = inp.nu
-    tot = np.abs(inp.totals[idx])                                  # (P, nc)
     weight = cap_weights(nu, inp.z2)
     hmax = float(np.abs(nu[:, 0]).max(initial=1.0))
+    if len(idx) == 1:                                               # one point: plain floats
+        t = np.abs(inp.totals[idx[0]])
+        tw = float(t @ weight)
+        ts = float(t.sum())
+        cap = 1.1 * (float(inp.inert_i[idx[0]]) + 0.5 * tw + float(t[0]) + hmax * (ts - float(t[0])) + 1.0)
+        return np.array([cap + 1e-6])
+    tot = np.abs(inp.totals[idx])                                  # (P, nc)
     water = tot[:, 0] + hmax * tot[:, 1:].sum(axis=1) + 1.0
     return 1.1 * (inp.inert_i[idx] + 0.5 * tot @ weight + water) + 1e-6
 

@@ -89,6 +89,9 @@ def kernel_inputs(prob: Problem, *, t_c=None, totals=None, inert_i=None, pressur
     which solids may form (P, solids).
     """
     st = prob.structure
+    if (t_c is None and totals is None and inert_i is None and pressures is None and fixed_ph is None
+            and fixed_ionic is None and allowed is None and inert_q is None and not st.fixed):
+        return _single_inputs(prob)
     if totals is not None and inert_q is None and fixed_ph is None:
         # the proton row is solved as the charge balance, which needs the inert ions' charge
         # for exactly these totals: refuse rather than solve a different mixture
@@ -158,6 +161,39 @@ def kernel_inputs(prob: Problem, *, t_c=None, totals=None, inert_i=None, pressur
                     eq_rhs=eq_rhs, sol_a=sol_a, sol_b=np.ascontiguousarray(sol_b), allowed=allowed,
                     fixed_ionic=fi, counter_row=counter, z_comp=st.z_comp if iq is not None else None,
                     inert_q=iq)
+
+
+def _single_inputs(prob: Problem) -> K.Inputs:
+    """:func:`kernel_inputs` of ``prob`` itself (one point, no fixed gas): what a single solve needs.
+
+    Everything but the totals and the inert ions depends on the structure and
+    the temperature only, and is kept per temperature (read-only arrays).
+    """
+    st = prob.structure
+    t = prob.temperature_c
+    cache = st.cache.setdefault("single", {})
+    tpl = cache.get(t)
+    if tpl is None:
+        _, a0, b0 = water_constants(t)
+        nc, nq = st.n_components, st.sol_a.shape[0]
+        nu = st.nu
+        w_hess = st.cache.get("w_hess")
+        if w_hess is None:
+            w_hess = st.cache["w_hess"] = np.ascontiguousarray(
+                (nu[:, :, None] * nu[:, None, :]).reshape(nu.shape[0], -1))
+        parts = dict(lnk=(LN10 * st.log_k_at(t))[None], a=np.array([a0]), b=np.array([b0]),
+                     eq_rows=np.zeros((0, nc)), eq_rhs=np.zeros((1, 0)),
+                     sol_b=np.ascontiguousarray((LN10 * st.sol_logk.at(t)).reshape(1, nq)),
+                     allowed=np.asarray(st.sol_allowed, dtype=bool).reshape(1, nq).copy())
+        for v in parts.values():
+            v.setflags(write=False)
+        tpl = cache[t] = (parts, w_hess)
+        if len(cache) > 256:
+            cache.clear()
+    parts, w_hess = tpl
+    return K.Inputs(nu=st.nu, z2=st.z2, size=st.size, model=st.model, w_hess=w_hess, sol_a=st.sol_a,
+                    totals=prob.totals[None], inert_i=np.array([prob.inert_i]), z_comp=st.z_comp,
+                    inert_q=np.array([float(prob.inert_q)]), **parts)
 
 
 def run_kernel(prob: Problem, inp: K.Inputs, *, u0=None, i0=None, max_iter: int = 200,
@@ -541,7 +577,8 @@ def solve(mixture: Mixture, *, tol: float = 1e-13, max_iter: int = 200) -> Equil
     st = prob.structure
     t = mixture.temperature_c
     pkw, a, b = water_constants(t)
-    if st.fast:
+    if st.fast and not _native_single(st):
+        # a pure acid–base mixture, no compiled iteration: two unknowns (x, I) in plain floats
         lnk = LN10 * prob.log_k()
         data = fast_data(prob, lnk)
         # strong ions that only a candidate solid names react with nothing here: inert for the fast path
@@ -568,6 +605,14 @@ def solve(mixture: Mixture, *, tol: float = 1e-13, max_iter: int = 200) -> Equil
     state = _State(res.u[0], float(res.ionic[0]), res.lng[0], res.conc[0], res.amounts[0], res.eq_mult[0],
                    bool(res.converged[0]), res.iterations, float(res.residual[0]))
     return assemble(prob, state)
+
+
+def _native_single(st: Structure) -> bool:
+    """Whether single solves of ``st`` go to the compiled iteration (faster than the acid–base fast
+    path too: the same Newton steps in microseconds)."""
+    from . import _native
+
+    return _native.available and _native.knows(st.model)
 
 
 @dataclass(frozen=True)
