@@ -27,7 +27,6 @@ CORROSIVE_HIGH = 12.5
 TRACE_M = 1e-6
 
 #: Gas partial pressures are read as ppm of a 1 atm headspace.
-PPM_PER_ATM = 1e6
 
 
 def cautions_for(eq: Equilibrium) -> list[Notice]:
@@ -47,10 +46,8 @@ def cautions_for(eq: Equilibrium) -> list[Notice]:
 
     flagged_gas = set()
     for g in eq.gases:
-        if g.exposure_limit_ppm is None or g.fixed:     # a gas the user holds is no release
-            continue
-        ppm = g.pressure_atm * PPM_PER_ATM
-        if ppm > g.exposure_limit_ppm:
+        if g.over_exposure_limit:                       # a gas the user holds is no release
+            ppm = g.headspace_ppm
             flagged_gas.add(g.name)
             out.append(Notice(
                 "toxic-gas",

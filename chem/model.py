@@ -752,6 +752,19 @@ class GasState(NamedTuple):
     """mol/L taken up from the gas (negative: given off); 0 when not fixed."""
     exposure_limit_ppm: float | None = None
 
+    @property
+    def headspace_ppm(self) -> float:
+        """The partial pressure as ppm of a 1 atm headspace (how exposure limits are written)."""
+        from .units import pressure_ppm
+
+        return pressure_ppm(self.pressure_atm)
+
+    @property
+    def over_exposure_limit(self) -> bool:
+        """A gas given off (not one the user holds) whose headspace passes its short-term exposure limit."""
+        return (not self.fixed and self.exposure_limit_ppm is not None
+                and self.headspace_ppm > self.exposure_limit_ppm)
+
 
 @dataclass(frozen=True)
 class Equilibrium:

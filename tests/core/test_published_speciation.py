@@ -149,6 +149,12 @@ def test_headspace_over_sulfide_at_ph_8_carries_a_toxic_gas_caution():
     h2s = eq.gas("H2S")
     assert h2s.pressure_atm * 1e6 > 10.0
     assert any(c.code == "toxic-gas" and "H2S" in c.message for c in eq.cautions)
+    assert h2s.over_exposure_limit and h2s.headspace_ppm == pytest.approx(h2s.pressure_atm * 1e6)
+    # the same sulfide held well above its pKa gives off too little H2S: no headspace flag (the same
+    # rule the explorer's readout and gas panel use)
+    high = solve(mix(("sodium hydrosulfide", "1 uM"), ("sodium hydroxide", "10 mM")))
+    assert not high.gas("H2S").over_exposure_limit
+    assert not any(c.code == "toxic-gas" and "air over" in c.message for c in high.cautions)
 
 
 @pytest.mark.parametrize("activity", ["ideal", "davies"])

@@ -28,7 +28,7 @@ from textual.scroll_view import ScrollView
 from textual.strip import Strip
 
 import chem
-from chem import format_pressure, pressure_ppm
+from chem import format_pressure
 from tui.formula import shown_name, shown_unit
 from tui.text import printable
 from tui.widgets.readout import precipitation_label, signed
@@ -181,7 +181,7 @@ def panel_rows(eq: chem.Equilibrium, pinned: chem.Equilibrium | None, gases: tup
             pieces.append((f" {format_pressure(now.pressure_atm):>10}  ", ""))
         limit = gas.exposure_limit_ppm
         if limit is not None and gas.name not in held:
-            over = now is not None and pressure_ppm(now.pressure_atm) > limit
+            over = now is not None and now.over_exposure_limit
             pieces.append(((" ⚠ over " if utf8 else " ! over ") + f"limit {limit:g} ppm" if over
                            else f"limit {limit:g} ppm", "bad" if over else "dim"))
         rows.append(PanelRow("gas", tuple(pieces), gas.name))

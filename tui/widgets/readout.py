@@ -21,7 +21,7 @@ from textual.strip import Strip
 from textual.widget import Widget
 
 import chem
-from chem import format_pressure, pressure_ppm
+from chem import format_pressure
 from tui.formula import shown_name, shown_unit
 from tui.text import printable
 
@@ -109,8 +109,7 @@ def speciation_lines(eq: chem.Equilibrium, pinned: chem.Equilibrium | None, widt
         rest.append([(shown_name(fixed.gas.formula or fixed.gas.name, utf8), "readout--bold"),
                      (f" held {shown_unit(fixed.label, utf8)}", "")])
     for gas in eq.gases:
-        if not gas.fixed and gas.exposure_limit_ppm is not None and \
-                pressure_ppm(gas.pressure_atm) > gas.exposure_limit_ppm:
+        if gas.over_exposure_limit:
             rest.append([(f"⚠ {shown_name(gas.name, utf8)} {format_pressure(gas.pressure_atm)}", "readout--bad")])
     lines += _flow(rest, width)
     return lines
