@@ -712,6 +712,12 @@ class Species(NamedTuple):
     def activity(self) -> float:
         return self.conc * self.activity_coefficient
 
+    @property
+    def p_level(self) -> float:
+        """−log10 of its activity (pCa for Ca2+); infinite when absent."""
+        a = self.activity
+        return -math.log10(a) if a > 0 else math.inf
+
 
 class SystemState(NamedTuple):
     """Where one system's material is at equilibrium."""
@@ -827,11 +833,8 @@ class Equilibrium:
 
     def free_level(self, system: str) -> float:
         """pM = −log10 a of a metal's free ion (e.g. pCa)."""
-        st = self.system(system)
-        sp = next(s for s in self.species if s.system == system)
-        a = sp.activity
-        del st
-        return -math.log10(a) if a > 0 else math.inf
+        self.system(system)                 # KeyError for a system the mixture lacks
+        return next(s for s in self.species if s.system == system).p_level
 
     @property
     def hardness_mg_l(self) -> float | None:

@@ -200,3 +200,12 @@ def test_a_solid_is_found_by_alias_or_formula_and_an_ambiguous_formula_is_refuse
         np.testing.assert_allclose(solubility(m, other, ph).series["copper"], by_name, rtol=1e-12)
     with pytest.raises(chem.ChemError, match="formula of 'calcite' and 'aragonite'"):
         solubility(m, "CaCO3", ph)
+
+
+def test_a_species_p_level_is_minus_log_of_its_activity():
+    # pX = −log10 a(X) (common practice: pH's definition carried to any ion)
+    eq = solve(mix(("calcium chloride", "1 mM")))
+    ca = eq.get("Ca^2+")
+    assert ca.p_level == pytest.approx(-math.log10(ca.conc * ca.activity_coefficient), abs=1e-12)
+    assert eq.free_level("calcium") == ca.p_level
+    assert chem.Species("X", "strong", 0, 1, 0.0, 1.0, None).p_level == math.inf

@@ -7,7 +7,6 @@ chem (:func:`chem.design_buffer`, :func:`chem.design_metal_buffer`); this module
 from __future__ import annotations
 
 import json
-import math
 import os
 import sys
 
@@ -160,7 +159,7 @@ def render_recipe(recipe) -> str:
     if recipe.free_species is not None:
         sp = eq.get(recipe.free_species)
         out.append(f"free {recipe.free_species}: {format_molar(sp.conc, 4)} (wanted {format_molar(recipe.free_target, 4)}), "
-                   f"p{recipe.free_species.split('^')[0].rstrip('+-')} {-math.log10(sp.activity):.3f} "
+                   f"p{recipe.free_species.split('^')[0].rstrip('+-')} {sp.p_level:.3f} "
                    f"(−log activity)")
     unc = recipe.uncertainty
     lo, hi = unc.interval_95
