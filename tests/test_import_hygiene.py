@@ -21,3 +21,22 @@ def test_chem_sources_never_import_ui_packages():
     pattern = re.compile(r"^\s*(from|import)\s+(textual|plotext|rich|tui)\b", re.M)
     offenders = [p.name for p in root.rglob("*.py") if pattern.search(p.read_text())]
     assert offenders == []
+
+
+def test_every_text_entry_of_the_interface_keeps_keys_in_typing_order():
+    """Textual's Input runs its editing keys after the typed characters that follow them in one read
+    (see tui/widgets/entry.py); every entry the interface builds is an Entry."""
+    import ast
+    from pathlib import Path
+
+    root = Path(__file__).resolve().parents[1] / "tui"
+    found = []
+    for path in root.rglob("*.py"):
+        if path.name == "entry.py":
+            continue
+        for node in ast.walk(ast.parse(path.read_text(encoding="utf-8"))):
+            if isinstance(node, ast.Call) and isinstance(node.func, ast.Name) and node.func.id == "Input":
+                found.append(f"{path.relative_to(root)}:{node.lineno} builds Input")
+            if isinstance(node, ast.ClassDef) and any(isinstance(b, ast.Name) and b.id == "Input" for b in node.bases):
+                found.append(f"{path.relative_to(root)}:{node.lineno} subclasses Input")
+    assert not found, found

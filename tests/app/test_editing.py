@@ -86,6 +86,36 @@ async def test_an_amount_typed_in_place_replaces_the_old_one(acetate_buffer, set
         assert app.focused is app.query_one(FlaskList)
 
 
+def _burst(app, *keys: str) -> None:
+    """Keys arriving in one read from the terminal (fast typing, or a burst over a slow SSH link): all
+    queued at the app before any is handled, as the terminal driver does."""
+    from textual import events
+
+    for key in keys:
+        char = {"backspace": "\x7f", "enter": "\r", "space": " "}.get(key, key if len(key) == 1 else None)
+        app.post_message(events.Key(key, char))
+
+
+async def test_keys_arriving_in_one_burst_edit_an_amount_in_typing_order(acetate_buffer, settle):
+    # Textual's own entry inserts a typed character at once but runs backspace, delete and cursor keys
+    # only after they bubble back to the app: "backspace 9" in one read became "9 backspace".
+    app = ExplorerApp(acetate_buffer)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await settle(pilot)
+        await pilot.press("down", "enter")
+        await pilot.pause()
+        editor = app.query_one(FlaskList).editor
+        assert editor is not None
+        _burst(app, "end", *["backspace"] * 8, "7", "0", "space", "m", "M", "left", "left", "left",
+               "backspace", "5", "end")
+        await pilot.pause()
+        await pilot.pause()
+        assert editor.value == "75 mM"
+        _burst(app, "enter")
+        await settle(pilot)
+        assert app.mixture.ingredients[1].conc == pytest.approx(0.075)
+
+
 async def test_nudges_scale_the_selected_amount_coarse_and_fine(acetate_buffer, settle, text_of):
     app = ExplorerApp(acetate_buffer)
     async with app.run_test(size=(80, 24)) as pilot:

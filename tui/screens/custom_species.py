@@ -12,6 +12,7 @@ from textual.containers import Grid, Vertical
 from textual.widgets import Input, Label
 
 import chem
+from tui.widgets.entry import Entry
 from tui.screens.base import Dialog
 from tui.text import printable
 from tui.widgets.amount_input import AmountInput
@@ -92,7 +93,7 @@ class CustomSpeciesForm(Dialog["chem.Ingredient | None"]):
                     if key == "amount":
                         yield AmountInput("", id="custom-amount")
                     else:
-                        yield Input(placeholder=hint, id=f"custom-{key}", compact=True)
+                        yield Entry(placeholder=hint, id=f"custom-{key}", compact=True)
             yield Label("", id="custom-error", classes="dialog-error")
             yield Label("tab next field · enter add · esc close", classes="dialog-hint")
 

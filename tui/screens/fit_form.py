@@ -26,6 +26,7 @@ from textual.widgets import Input, Label, Static
 from textual.worker import get_current_worker
 
 import chem
+from tui.widgets.entry import Entry
 from tui.screens.base import CheckedForm, show_text
 from tui.screens.recipe_form import named
 from tui.widgets.curve_kinds import TitrationSettings
@@ -144,7 +145,7 @@ class FitForm(CheckedForm["FitOutcome | None"]):
             for key, label, hint in self.FIELDS:
                 with Horizontal(classes="setup-row"):
                     yield Label(label, classes="field-label")
-                    yield Input(start[key], placeholder=hint, id=f"fit-{key}", compact=True)
+                    yield Entry(start[key], placeholder=hint, id=f"fit-{key}", compact=True)
             yield Label("", id="fit-error", classes="dialog-error")
             yield Static("", id="fit-result", classes="dialog-text")
             yield Label("enter fit · ctrl+g plot the points · ctrl+l load the fitted sample · esc close",

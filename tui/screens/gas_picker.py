@@ -18,6 +18,7 @@ from textual.widgets.option_list import Option
 
 import chem
 from chem import AIR_GAS, AIR_PRESSURE, format_pressure
+from tui.widgets.entry import Entry
 from tui.formula import shown_name, shown_unit
 from tui.screens.picker import PickerScreen
 from tui.text import printable
@@ -75,7 +76,7 @@ class GasPicker(PickerScreen["GasChange | None"]):
     def compose_extra(self) -> ComposeResult:
         with Horizontal(id="finder-amount-line"):
             yield Label("", id="finder-amount-label")
-            yield Input("", placeholder="e.g. 5 %, 420 uatm, 10 ppm", id="gas-pressure", compact=True,
+            yield Entry("", placeholder="e.g. 5 %, 420 uatm, 10 ppm", id="gas-pressure", compact=True,
                         select_on_focus=True, validators=[PressureValidator()], validate_on=["changed", "submitted"])
         yield Label("", id="gas-hint", classes="dialog-hint")
         yield Label("", id="finder-error", classes="dialog-error")

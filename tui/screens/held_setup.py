@@ -24,6 +24,7 @@ from textual.containers import Horizontal, Vertical
 from textual.widgets import Input, Label
 
 import chem
+from tui.widgets.entry import Entry
 from tui.screens.base import CheckedForm
 from tui.screens.recipe_form import Cycler, named
 from tui.widgets.curve_kinds import read_ph
@@ -101,7 +102,7 @@ class HeldSetup(CheckedForm["HeldSettings | None"]):
             for key, label in self.FIELDS:
                 with Horizontal(classes="setup-row"):
                     yield Label(label, classes="field-label")
-                    yield Input(start[key], placeholder="a pH, e.g. 2" if key == "from" else "a pH, e.g. 12",
+                    yield Entry(start[key], placeholder="a pH, e.g. 2" if key == "from" else "a pH, e.g. 12",
                                 id=f"held-{key}", compact=True)
             yield Label("", id="held-error", classes="dialog-error")
             hint = "←→ choose · " if choice is not None and choice[2] else ""

@@ -12,13 +12,14 @@ from textual.containers import Vertical
 from textual.widgets import Input, Label, OptionList
 from textual.widgets.option_list import Option
 
+from tui.widgets.entry import Entry
 from tui.screens.base import Dialog
 
 
 T = TypeVar("T")
 
 
-class QueryInput(Input):
+class QueryInput(Entry):
     """The filter entry. Enter picks at once, and keys already on their way here go where the focus went.
 
     Textual routes each key to the widget focused when the app reads it, so

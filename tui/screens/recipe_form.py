@@ -46,6 +46,7 @@ from textual.worker import Worker, WorkerState, get_current_worker
 
 import chem
 from chem import STANDARD_TEMPERATURE_C
+from tui.widgets.entry import Entry
 from tui.screens.base import Dialog, first_problem, show_text
 from tui.cli.curve_cmd import p_label
 from tui.text import printable
@@ -299,14 +300,14 @@ class RecipeForm(Dialog["Recipe | tuple[str, Recipe] | None"]):
             with Grid(id="recipe-grid"):
                 for key, label, hint in self.FIELDS:
                     yield Label(label, classes="field-label")
-                    yield Input(self._initial[key], placeholder=hint, id=f"recipe-{key}", compact=True)
+                    yield Entry(self._initial[key], placeholder=hint, id=f"recipe-{key}", compact=True)
                 yield Label("form", classes="field-label")
                 yield Cycler(FORMS, id="recipe-form")
                 yield Label("salt", classes="field-label")
-                yield Input(placeholder="background salt, optional, e.g. NaCl 150 mM", id="recipe-salt",
+                yield Entry(placeholder="background salt, optional, e.g. NaCl 150 mM", id="recipe-salt",
                             compact=True)
                 yield Label("free level", classes="field-label")
-                yield Input(self._initial["free"], placeholder="metal buffer, optional, e.g. Ca^2+=100 nM "
+                yield Entry(self._initial["free"], placeholder="metal buffer, optional, e.g. Ca^2+=100 nM "
                             "(system: the chelator)", id="recipe-free", compact=True)
             yield Label("", id="recipe-status")
             with VerticalScroll(id="recipe-scroll", can_focus=False):

@@ -11,6 +11,7 @@ from textual.binding import Binding
 from textual.containers import Vertical
 from textual.widgets import Input, Label
 
+from tui.widgets.entry import Entry
 from tui import storage
 from tui.screens.base import Dialog
 from tui.screens.choice import Choice
@@ -41,9 +42,9 @@ class SavePreset(Dialog["SaveRequest | None"]):
         with Vertical(classes="dialog"):
             yield Label("Save the mixture as a preset", classes="dialog-heading")
             yield Label("name (file in your preset folder)", classes="dialog-hint")
-            yield Input(self.initial_name, placeholder="e.g. rinse buffer 37C", id="save-name")
+            yield Entry(self.initial_name, placeholder="e.g. rinse buffer 37C", id="save-name")
             yield Label("title (shown in the preset list)", classes="dialog-hint")
-            yield Input(self.initial_title, placeholder="what this mixture is for", id="save-title")
+            yield Entry(self.initial_title, placeholder="what this mixture is for", id="save-title")
             yield Label("", id="save-error", classes="dialog-error")
             yield Label(Content(printable(f"folder: {self._folder()}")), classes="dialog-hint")
             yield Label("enter save · tab next field · esc close", classes="dialog-hint")

@@ -29,6 +29,7 @@ from textual.containers import Horizontal, Vertical
 from textual.widgets import Input, Label
 
 import chem
+from tui.widgets.entry import Entry
 from tui.screens.base import CheckedForm
 from tui.screens.recipe_form import Cycler, named
 from tui.widgets.curve_kinds import MAX_SWEEP_POINTS, SweepSettings, default_sweep
@@ -106,7 +107,7 @@ class SweepSetup(CheckedForm["SweepSettings | None"]):
             for key, label in self.FIELDS:
                 with Horizontal(classes="setup-row"):
                     yield Label(label, classes="field-label")
-                    yield Input(start[key], id=f"sweep-{key}", compact=True)
+                    yield Entry(start[key], id=f"sweep-{key}", compact=True)
             yield Label("", id="sweep-error", classes="dialog-error")
             yield Label("←→ choose · tab next field · enter draw · esc close", classes="dialog-hint")
 

@@ -29,6 +29,7 @@ from textual.widgets import Input, Label, OptionList
 from textual.widgets.option_list import Option
 
 import chem
+from tui.widgets.entry import Entry
 from tui.screens.base import CheckedForm
 from tui.screens.finder import matching_reagents
 from tui.screens.recipe_form import named
@@ -98,7 +99,7 @@ class TitrationSetup(CheckedForm["TitrationSettings | None"]):
             for key, label, hint in self.FIELDS:
                 with Horizontal(classes="setup-row"):
                     yield Label(label, classes="field-label")
-                    yield Input(start[key], placeholder=hint, id=f"titration-{key}", compact=True)
+                    yield Entry(start[key], placeholder=hint, id=f"titration-{key}", compact=True)
                 if key == "titrant":
                     matches = OptionList(id="titrant-matches")
                     matches.can_focus = False

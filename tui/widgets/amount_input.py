@@ -3,9 +3,9 @@
 from __future__ import annotations
 
 from textual.validation import ValidationResult, Validator
-from textual.widgets import Input
 
 import chem
+from tui.widgets.entry import Entry
 
 
 class AmountValidator(Validator):
@@ -23,7 +23,7 @@ class AmountValidator(Validator):
         return self.success()
 
 
-class AmountInput(Input):
+class AmountInput(Entry):
     """An amount such as ``25 mM`` or ``1.2 g/L``; a bad entry is marked and explained."""
 
     def __init__(self, value: str = "", *, molar_mass: float | None = None, compact: bool = True,
