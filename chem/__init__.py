@@ -13,7 +13,8 @@ from ._solver import buffer_capacity_at, solve, tableau
 from .activity import MODELS as ACTIVITY_MODELS
 from .errors import ChemError, LibraryError, ModelError, PresetError, UnitError
 from .library import Library, load_library
-from .limits import (AIR_GAS, AIR_PRESSURE, HELD_PH_RANGE, LOG_C_FLOOR, PH_MAX, PH_MIN, STANDARD_TEMPERATURE_C,
+from .limits import (AIR_GAS, AIR_PRESSURE, HELD_PH_RANGE, LOG_C_FLOOR, PH_MAX, PH_MIN, PINNED_ACTIVITY_MAX,
+                     STANDARD_TEMPERATURE_C,
                      T_MAX_C, T_MIN_C, check_ph, neutral_ph, ph_grid)
 from .model import (AcidBaseSystem, Complex, Equilibrium, FixedGas, Gas, GasState, Ingredient, Ion, Mixture,
                     Notice, Reagent, Solid, SolidState, Species, SystemState, format_molar)
@@ -55,7 +56,7 @@ def __getattr__(name: str):
 __version__ = "0.1.0"
 
 __all__ = [
-    "ACTIVITY_MODELS", "HELD_PH_RANGE", "LOG_C_FLOOR", "PH_MAX", "PH_MIN", "STANDARD_TEMPERATURE_C", "T_MAX_C",
+    "ACTIVITY_MODELS", "HELD_PH_RANGE", "PINNED_ACTIVITY_MAX", "LOG_C_FLOOR", "PH_MAX", "PH_MIN", "STANDARD_TEMPERATURE_C", "T_MAX_C",
     "T_MIN_C", "check_ph", "neutral_ph", "ph_grid", "check_save_target", "clean_stale_temps", "custom_reagent",
     "read_preset_bytes", "write_atomic", "parse_temperature", "AIR_GAS", "AIR_PRESSURE", "format_pressure",
     "pressure_ppm",

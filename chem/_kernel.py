@@ -40,6 +40,8 @@ from dataclasses import dataclass, replace
 
 import numpy as np
 
+from .limits import PINNED_ACTIVITY_MAX
+
 _LN10 = math.log(10.0)
 #: Largest change of any ln activity in one Newton step (about 3.5 decades).
 STEP_MAX = 8.0
@@ -419,9 +421,6 @@ def _iterate(inp: Inputs, idx: np.ndarray, u: np.ndarray, ionic: np.ndarray, act
     return u, ionic, active, lam_e, lam_s, converged, its
 
 
-#: A free activity above this (mol/L) pinned by the equalities alone has no solution the model can
-#: represent (no aqueous solution holds much more than 30 mol/L of anything; see notices.check_possible).
-PINNED_ACTIVITY_MAX = 30.0
 _PINNED: dict = {}
 
 

@@ -18,6 +18,11 @@ import math
 from .errors import UnitError
 from .water import T_MAX_C, T_MIN_C
 
+#: No free activity above this (mol/L) can be a solution: no aqueous solution holds much more than 30
+#: mol/L of anything (water itself is 55 mol/L). A held pH, solid or gas that would pin a free ion
+#: above it leaves that point without a solution (see notices.check_possible for totals).
+PINNED_ACTIVITY_MAX = 30.0
+
 #: The pH scale offered for targets and pH axes (common practice: 0 to 14).
 PH_MIN = 0.0
 PH_MAX = 14.0

@@ -421,7 +421,10 @@ def _held_diagram(args, mixture, grid, eq) -> _Result:
     marks = [eq.pH] if grid[0] <= eq.pH <= grid[-1] else []
     none = 0 if d.no_solution is None else int(d.no_solution.sum())
     bad = 0 if d.converged is None else int((~d.converged).sum()) - none
-    empty = (f"{none} point(s) have no solution and are left empty: there a free ion would pass 30 mol/L "
+    from chem import PINNED_ACTIVITY_MAX
+
+    empty = (f"{none} point(s) have no solution and are left empty: there a free ion would pass "
+             f"{PINNED_ACTIVITY_MAX:g} mol/L "
              "(no aqueous solution holds that)") if none else ""
     if empty:
         notes.append(empty)

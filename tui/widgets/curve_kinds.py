@@ -412,7 +412,7 @@ def _unconverged(flags: np.ndarray, no_solution: np.ndarray | None = None) -> li
     notes = [f"{bad} point{'s' * (bad != 1)} did not converge (unreliable)"] if bad else []
     if none:
         notes.append(f"{none} point{'s' * (none != 1)} left out: no solution there "
-                     "(a free ion would pass 30 mol/L)")
+                     f"(a free ion would pass {chem.PINNED_ACTIVITY_MAX:g} mol/L)")
     return notes
 
 
