@@ -545,13 +545,6 @@ def _solve(inp: Inputs, u0: np.ndarray, i0: np.ndarray, *, max_iter: int = 200,
     return res
 
 
-def native_ready(inp: Inputs) -> bool:
-    """Whether the compiled single-point iteration (:mod:`chem._native`) can take ``inp``."""
-    from . import _native
-
-    return _native.available and _native.knows(inp.model)
-
-
 def crude_start(inp: Inputs, h_fixed: float | None = None) -> tuple[np.ndarray, np.ndarray]:
     """Starting values for one point: every component free at its total, pH 7 (or the held pH), and
     the ionic strength of the totals as free ions."""

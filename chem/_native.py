@@ -47,6 +47,11 @@ def knows(model) -> bool:
     return getattr(model, "name", "") in _MODELS
 
 
+def ready(model) -> bool:
+    """Whether single solves with this activity model run the compiled iteration."""
+    return available and knows(model)
+
+
 def _static(nu: np.ndarray, z2: np.ndarray, size: np.ndarray):
     """Contiguous copies of the structure's arrays and their addresses (kept per structure)."""
     hit = _STATIC.get(id(nu))

@@ -28,7 +28,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from . import _kernel as K
-from . import water
+from . import _native, water
 from .model import (T_REF_C, AcidBaseSystem, Complex, Equilibrium, GasState, Ion, Mixture, SolidState,
                     Species, SystemState, charge_label)
 from .problem import LN10, Problem, Structure, compile
@@ -151,16 +151,21 @@ def kernel_inputs(prob: Problem, *, t_c=None, totals=None, inert_i=None, pressur
     iq = None
     if fixed_ph is None:     # a pH-stat's added acid or base carries charge the totals do not show
         iq = np.broadcast_to(np.asarray(prob.inert_q if inert_q is None else inert_q, dtype=float), (p,)).copy()
-    w_hess = st.cache.get("w_hess")
-    if w_hess is None:
-        nu = st.nu
-        w_hess = st.cache["w_hess"] = np.ascontiguousarray(
-            (nu[:, :, None] * nu[:, None, :]).reshape(nu.shape[0], -1))
-    return K.Inputs(nu=st.nu, z2=st.z2, size=st.size, model=st.model, lnk=np.ascontiguousarray(lnk), w_hess=w_hess,
+    return K.Inputs(nu=st.nu, z2=st.z2, size=st.size, model=st.model, lnk=np.ascontiguousarray(lnk),
+                    w_hess=_w_hess(st),
                     totals=np.ascontiguousarray(tot), a=a, b=b, inert_i=np.array(ii), eq_rows=eq_rows,
                     eq_rhs=eq_rhs, sol_a=sol_a, sol_b=np.ascontiguousarray(sol_b), allowed=allowed,
                     fixed_ionic=fi, counter_row=counter, z_comp=st.z_comp if iq is not None else None,
                     inert_q=iq)
+
+
+def _w_hess(st: Structure) -> np.ndarray:
+    """ν_sj·ν_sk per species, flattened (the kernel's Hessian is c @ this); cached per structure."""
+    w_hess = st.cache.get("w_hess")
+    if w_hess is None:
+        nu = st.nu
+        w_hess = st.cache["w_hess"] = np.ascontiguousarray((nu[:, :, None] * nu[:, None, :]).reshape(nu.shape[0], -1))
+    return w_hess
 
 
 def _single_inputs(prob: Problem) -> K.Inputs:
@@ -172,26 +177,20 @@ def _single_inputs(prob: Problem) -> K.Inputs:
     st = prob.structure
     t = prob.temperature_c
     cache = st.cache.setdefault("single", {})
-    tpl = cache.get(t)
-    if tpl is None:
+    parts = cache.get(t)
+    if parts is None:
         _, a0, b0 = water_constants(t)
         nc, nq = st.n_components, st.sol_a.shape[0]
-        nu = st.nu
-        w_hess = st.cache.get("w_hess")
-        if w_hess is None:
-            w_hess = st.cache["w_hess"] = np.ascontiguousarray(
-                (nu[:, :, None] * nu[:, None, :]).reshape(nu.shape[0], -1))
         parts = dict(lnk=(LN10 * st.log_k_at(t))[None], a=np.array([a0]), b=np.array([b0]),
                      eq_rows=np.zeros((0, nc)), eq_rhs=np.zeros((1, 0)),
                      sol_b=np.ascontiguousarray((LN10 * st.sol_logk.at(t)).reshape(1, nq)),
                      allowed=np.asarray(st.sol_allowed, dtype=bool).reshape(1, nq).copy())
         for v in parts.values():
             v.setflags(write=False)
-        tpl = cache[t] = (parts, w_hess)
         if len(cache) > 256:
             cache.clear()
-    parts, w_hess = tpl
-    return K.Inputs(nu=st.nu, z2=st.z2, size=st.size, model=st.model, w_hess=w_hess, sol_a=st.sol_a,
+        cache[t] = parts
+    return K.Inputs(nu=st.nu, z2=st.z2, size=st.size, model=st.model, w_hess=_w_hess(st), sol_a=st.sol_a,
                     totals=prob.totals[None], inert_i=np.array([prob.inert_i]), z_comp=st.z_comp,
                     inert_q=np.array([float(prob.inert_q)]), **parts)
 
@@ -226,7 +225,7 @@ def run_kernel(prob: Problem, inp: K.Inputs, *, u0=None, i0=None, max_iter: int 
 
 def _general(prob: Problem, inp: K.Inputs, max_iter: int, *, u0=None, i0=None, fixed_ph=None) -> K.Result:
     """The general kernel from starting values (unless given)."""
-    if u0 is None and inp.points == 1 and K.native_ready(inp):
+    if u0 is None and inp.points == 1 and _native.ready(inp.model):
         # the compiled iteration costs microseconds a step: start it where every component is free
         # (Newton on the convex objective converges from anywhere); the careful starting values
         # below are for a point it leaves unsettled
@@ -577,8 +576,9 @@ def solve(mixture: Mixture, *, tol: float = 1e-13, max_iter: int = 200) -> Equil
     st = prob.structure
     t = mixture.temperature_c
     pkw, a, b = water_constants(t)
-    if st.fast and not _native_single(st):
-        # a pure acid–base mixture, no compiled iteration: two unknowns (x, I) in plain floats
+    if st.fast and not _native.ready(st.model):
+        # a pure acid–base mixture, no compiled iteration (with it, the general kernel is faster):
+        # two unknowns (x, I) in plain floats
         lnk = LN10 * prob.log_k()
         data = fast_data(prob, lnk)
         # strong ions that only a candidate solid names react with nothing here: inert for the fast path
@@ -605,14 +605,6 @@ def solve(mixture: Mixture, *, tol: float = 1e-13, max_iter: int = 200) -> Equil
     state = _State(res.u[0], float(res.ionic[0]), res.lng[0], res.conc[0], res.amounts[0], res.eq_mult[0],
                    bool(res.converged[0]), res.iterations, float(res.residual[0]))
     return assemble(prob, state)
-
-
-def _native_single(st: Structure) -> bool:
-    """Whether single solves of ``st`` go to the compiled iteration (faster than the acid–base fast
-    path too: the same Newton steps in microseconds)."""
-    from . import _native
-
-    return _native.available and _native.knows(st.model)
 
 
 @dataclass(frozen=True)

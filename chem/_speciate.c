@@ -77,6 +77,24 @@ static double objective(const problem *p, const double *u, const double *c) {
     return f;
 }
 
+/* A constraint row r.u = b in the scaled unknowns: its inverse norm (and b - r.u in *resid). */
+static double row_scale(int nc, const double *r, const double *s, const double *u, double b, double *resid) {
+    double nn = 0.0, ru = b;
+    for (int j = 0; j < nc; j++) { double v = r[j] * s[j]; nn += v * v; ru -= r[j] * u[j]; }
+    *resid = ru;
+    nn = sqrt(nn);
+    return 1.0 / (nn > 1e-300 ? nn : 1e-300);
+}
+
+/* Row and column ``at`` of the KKT matrix k (n x n): the constraint row r, scaled by s and w. */
+static void put_row(double *k, int n, int at, int nc, const double *r, const double *s, double w) {
+    for (int j = 0; j < nc; j++) {
+        double v = r[j] * s[j] * w;
+        k[(size_t)at * n + j] = v;
+        k[(size_t)j * n + at] = v;
+    }
+}
+
 /* Solve k x = r (n x n, row-major) by Gaussian elimination with partial pivoting; k and r are overwritten. */
 static int lu_solve(int n, double *k, double *r) {
     for (int col = 0; col < n; col++) {
@@ -140,10 +158,10 @@ int pm_iterate(int ns, int nc, const double *nu, const double *lnk, const double
     size_t need = (size_t)ns * 4 + (size_t)nc * 8 + (size_t)nmax * nmax + (size_t)nmax * 3 + (size_t)ne + nq * 2;
     double *mem = (double *)malloc(need * sizeof(double));
     if (!mem) { free(sp_start); free(sp_val); return -3; }
-    double *lng = mem, *c = lng + ns, *c_new = c + ns, *dlng = c_new + ns;
-    double *g = dlng + ns, *s = g + nc, *d = s + nc, *u_new = d + nc, *held = u_new + nc, *tmp = held + nc,
-           *zrow = tmp + nc, *share = zrow + nc;
-    double *k = share + nc, *rhs = k + (size_t)nmax * nmax, *le = rhs + nmax, *ls = le + nmax,
+    double *lng = mem, *c = lng + ns, *c_new = c + ns, *zs = c_new + ns;
+    double *g = zs + ns, *s = g + nc, *d = s + nc, *u_new = d + nc, *held = u_new + nc, *tmp = held + nc,
+           *zrow = tmp + nc, *pin = zrow + nc;
+    double *k = pin + nc, *rhs = k + (size_t)nmax * nmax, *le = rhs + nmax, *ls = le + nmax,
            *norm = ls + nmax, *qn = norm + ne;
     double ionic = *ionic_io;
     int update_i = !freeze_ionic && model != 0;
@@ -157,20 +175,21 @@ int pm_iterate(int ns, int nc, const double *nu, const double *lnk, const double
         for (int s_ = 0; s_ < ns; s_++) {
             double zz = 0.0;
             for (int j = 0; j < nc; j++) zz += nu[(size_t)s_ * nc + j] * z_comp[j];
-            dlng[s_] = zz;          /* reused below; kept in zs */
+            zs[s_] = zz;
         }
     }
-    double *zs = (double *)malloc(sizeof(double) * (ns > 0 ? ns : 1));
-    if (!zs) { free(mem); free(sp_start); free(sp_val); return -3; }
-    if (charge_balance) memcpy(zs, dlng, sizeof(double) * ns);
+    /* components an equality pins (a fixed gas's): the sweeps leave them alone */
+    for (int j = 0; j < nc; j++) {
+        pin[j] = 0.0;
+        for (int e = 0; e < ne; e++) if (eq_rows[(size_t)e * nc + j] != 0.0) pin[j] = 1.0;
+    }
 
     if (presweep && nq == 0) {
         /* from a crude start, Newton on f creeps (about one ln unit a step while a component is far
          * too high): first damped log-ratio sweeps that give each component its share, with u_H
          * settled on the proton balance after each (kernel.starting_values does the same for a batch) */
         ln_gamma(p, ionic, lng);
-        int h_free = 1;
-        for (int e = 0; e < ne; e++) if (eq_rows[(size_t)e * nc] != 0.0) h_free = 0;
+        int h_free = pin[0] == 0.0;
         for (int sweep = 0; sweep < 12; sweep++) {
             concentrations(p, u, lng, c);
             double moved = 0.0;
@@ -181,9 +200,7 @@ int pm_iterate(int ns, int nc, const double *nu, const double *lnk, const double
                     if (v > 0.0 && sp_col[e] > 0) { g[sp_col[e]] += v * c[s_]; held[sp_col[e]] += v * v * c[s_]; }
                 }
             for (int j = 1; j < nc; j++) {
-                int pinned = 0;
-                for (int e = 0; e < ne; e++) if (eq_rows[(size_t)e * nc + j] != 0.0) pinned = 1;
-                if (pinned) continue;
+                if (pin[j] != 0.0) continue;
                 double m = g[j] > 1e-300 ? g[j] : 1e-300;
                 double nbar = held[j] / m;
                 if (nbar < 1.0) nbar = 1.0;
@@ -194,11 +211,7 @@ int pm_iterate(int ns, int nc, const double *nu, const double *lnk, const double
                 tmp[j] = step;
                 if (fabs(step) > moved) moved = fabs(step);
             }
-            for (int j = 1; j < nc; j++) {
-                int pinned = 0;
-                for (int e = 0; e < ne; e++) if (eq_rows[(size_t)e * nc + j] != 0.0) pinned = 1;
-                if (!pinned) u[j] += tmp[j];
-            }
+            for (int j = 1; j < nc; j++) if (pin[j] == 0.0) u[j] += tmp[j];
             if (h_free) {
                 for (int t = 0; t < 3; t++) {
                     concentrations(p, u, lng, c);
@@ -255,30 +268,18 @@ int pm_iterate(int ns, int nc, const double *nu, const double *lnk, const double
         }
         for (int e = 0; e < ne; e++) {
             const double *er = eq_rows + (size_t)e * nc;
-            double nn = 0.0, ru = eq_rhs[e];
-            for (int j = 0; j < nc; j++) { double v = er[j] * s[j]; nn += v * v; ru -= er[j] * u[j]; }
-            nn = sqrt(nn);
-            norm[e] = 1.0 / (nn > 1e-300 ? nn : 1e-300);
-            for (int j = 0; j < nc; j++) {
-                double v = er[j] * s[j] * norm[e];
-                k[(size_t)(o + e) * n + j] = v;
-                k[(size_t)j * n + o + e] = v;
-            }
+            double ru;
+            norm[e] = row_scale(nc, er, s, u, eq_rhs[e], &ru);
+            put_row(k, n, o + e, nc, er, s, norm[e]);
             rhs[o + e] = ru * norm[e];
         }
         for (int q = 0; q < nq; q++) {
             const double *ar = sol_a + (size_t)q * nc;
-            double nn = 0.0, ru = sol_b[q];
-            for (int j = 0; j < nc; j++) { double v = ar[j] * s[j]; nn += v * v; ru -= ar[j] * u[j]; }
-            nn = sqrt(nn);
-            qn[q] = 1.0 / (nn > 1e-300 ? nn : 1e-300);
+            double ru;
             int ii = o + ne + q;
+            qn[q] = row_scale(nc, ar, s, u, sol_b[q], &ru);
             if (active[q]) {
-                for (int j = 0; j < nc; j++) {
-                    double v = ar[j] * s[j] * qn[q];
-                    k[(size_t)ii * n + j] = v;
-                    k[(size_t)j * n + ii] = v;
-                }
+                put_row(k, n, ii, nc, ar, s, qn[q]);
                 rhs[ii] = ru * qn[q];
             } else {
                 k[(size_t)ii * n + ii] = 1.0;
@@ -318,7 +319,7 @@ int pm_iterate(int ns, int nc, const double *nu, const double *lnk, const double
             }
             rhs[0] = -s[0] * qq;
         }
-        if (lu_solve(n, k, rhs) != 0) { *iters_out = its; free(zs); free(mem); free(sp_start); free(sp_val); return -2; }
+        if (lu_solve(n, k, rhs) != 0) { *iters_out = its; free(mem); free(sp_start); free(sp_val); return -2; }
         double big = 0.0;
         for (int j = 0; j < nc; j++) { d[j] = rhs[j] * s[j]; if (fabs(d[j]) > big) big = fabs(d[j]); }
         double d_i = ji ? rhs[nc] : 0.0;
@@ -373,7 +374,6 @@ int pm_iterate(int ns, int nc, const double *nu, const double *lnk, const double
         for (int j = 0; j < nc; j++) {
             double den = held[j] + fabs(totals[j]);
             double sh = held[j] / (den > 1e-300 ? den : 1e-300);
-            share[j] = sh;
             double v = fabs(d[j]) * (sh > 1e-12 ? sh : 1e-12);
             if (v > impact) impact = v;
         }
@@ -427,15 +427,13 @@ int pm_iterate(int ns, int nc, const double *nu, const double *lnk, const double
             for (int q = 0; q < nq; q++) if (active[q] && ls[q] < floor_ && ls[q] < wv) { wv = ls[q]; worst = q; }
             if (worst >= 0) { active[worst] = 0; done = 0; }
         }
-        if (done && !gave_up) { converged = 1; break; }
-        if (done) { converged = 1; break; }   /* the batch marks it converged too */
+        if (done) { converged = 1; break; }   /* the batch marks a done point converged even if it gave up */
         if (gave_up) break;
         if (!isfinite(u[0])) break;
     }
     if (its > max_iter) its = max_iter;
     *ionic_io = ionic;
     *iters_out = its;
-    free(zs);
     free(mem);
     free(sp_start);
     free(sp_val);

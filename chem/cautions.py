@@ -26,8 +26,6 @@ CORROSIVE_HIGH = 12.5
 # Below this total (mol/L) a hazardous system is ignored: trace amounts.
 TRACE_M = 1e-6
 
-#: Gas partial pressures are read as ppm of a 1 atm headspace.
-
 
 def cautions_for(eq: Equilibrium) -> list[Notice]:
     """The cautions that apply to ``eq`` (possibly none)."""

@@ -158,19 +158,11 @@ class Structure:
 
     def log_k_at(self, t_c: float) -> np.ndarray:
         """log10 K of every species at ``t_c`` (I = 0); read-only, cached."""
-        cache = self.cache.setdefault("log_k", {})
-        lk = cache.get(t_c)
-        if lk is None:
-            lk = self.logk.at(t_c)
-            lk.setflags(write=False)
-            if len(cache) > 256:
-                cache.clear()
-            cache[t_c] = lk
-        return lk
+        return self.value_at("logk", t_c)
 
     def value_at(self, name: str, t_c: float) -> np.ndarray:
-        """``getattr(self, name).at(t_c)`` for one temperature (``sol_logk``, ``sol_ksp``, ``gas_kh``):
-        read-only, cached."""
+        """``getattr(self, name).at(t_c)`` for one temperature (``logk``, ``sol_logk``, ``sol_ksp``,
+        ``gas_kh``): read-only, cached."""
         cache = self.cache.setdefault(name, {})
         v = cache.get(t_c)
         if v is None:
